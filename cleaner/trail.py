@@ -1,0 +1,86 @@
+"""The one mechanism by which every field records what it changed and why.
+
+A `Trail` follows one output field from its raw input to its final value.
+Each `apply` that alters the value appends a change whose `from` is the value
+before and whose `to` is the value after, so the list can be replayed: the
+first `from` is what the caller sent and the last `to` is what we return.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any
+
+
+class UnknownReason(LookupError):
+    """A code was emitted that the rules do not list: a programming error."""
+
+
+@dataclass(frozen=True, slots=True)
+class Reason:
+    code: str
+    kind: str  # "change" or "flag"
+    description: str
+    source: str
+    severity: str | None = None  # flags only: info, review or invalid
+
+    def as_json(self) -> dict[str, Any]:
+        body = {"code": self.code, "kind": self.kind, "description": self.description,
+                "source": self.source}
+        if self.severity:
+            body["severity"] = self.severity
+        return body
+
+
+class Trail:
+    __slots__ = ("field", "value", "changes", "flags", "_reasons")
+
+    def __init__(self, field: str, raw: Any, reasons: Mapping[str, Reason]):
+        self.field = field
+        self.value = raw
+        self.changes: list[dict[str, Any]] = []
+        self.flags: list[dict[str, Any]] = []
+        self._reasons = reasons
+
+    def _reason(self, code: str, kind: str) -> Reason:
+        reason = self._reasons.get(code)
+        if reason is None or reason.kind != kind:
+            raise UnknownReason(f"{kind} code {code!r} is not listed in the rules")
+        return reason
+
+    def apply(self, new_value: Any, reason: str) -> Any:
+        """Move the field to `new_value`, recording `reason` if it differs."""
+        self._reason(reason, "change")
+        if new_value != self.value:
+            self.changes.append({"field": self.field, "from": self.value, "to": new_value,
+                                 "reason": reason})
+            self.value = new_value
+        return new_value
+
+    def flag(self, code: str, **details: Any) -> None:
+        """Note something a person may need to look at; `details` must hold no free text."""
+        reason = self._reason(code, "flag")
+        entry = {"field": self.field, "code": code, "severity": reason.severity,
+                 "message": reason.description}
+        entry.update(details)
+        self.flags.append(entry)
+
+    def revert(self) -> Any:
+        """Give the value back exactly as sent: for a value that cannot be cleaned."""
+        if self.changes:
+            self.value = self.changes[0]["from"]
+            self.changes.clear()
+        return self.value
+
+    def has_flag(self, *codes: str) -> bool:
+        return any(flag["code"] in codes for flag in self.flags)
+
+    def fork(self, field: str) -> Trail:
+        """A trail for one of several outputs made from this one input (a list
+        item, or one of several numbers in one cell): it keeps the history so
+        far, relabelled, so its own chain still starts at the raw input."""
+        child = Trail(field, self.value, self._reasons)
+        child.changes = [{**change, "field": field} for change in self.changes]
+        child.flags = [{**flag, "field": field} for flag in self.flags]
+        return child

@@ -1,0 +1,53 @@
+"""Shared fixtures, and the bookkeeping behind the reasons coverage check:
+every code listed in rules/ must be emitted by at least one test."""
+
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+
+import cleaner
+from cleaner import engine
+from cleaner.trail import Trail
+
+REFERENCE_DATE = "2026-12-02"
+EMITTED: set[str] = set()
+
+
+def _record_codes(method):
+    def wrapper(self, *args, **kwargs):
+        before = len(self.changes), len(self.flags)
+        result = method(self, *args, **kwargs)
+        EMITTED.update(c["reason"] for c in self.changes[before[0]:])
+        EMITTED.update(f["code"] for f in self.flags[before[1]:])
+        return result
+    return wrapper
+
+
+Trail.apply = _record_codes(Trail.apply)
+Trail.flag = _record_codes(Trail.flag)
+
+
+@pytest.fixture(scope="session")
+def rules():
+    return engine.default_rules()
+
+
+@pytest.fixture
+def clean():
+    """cleaner.clean with a fixed reference date, options as keywords."""
+    def run(record, **options):
+        options.setdefault("reference_date", REFERENCE_DATE)
+        return cleaner.clean(record, options)
+    return run
+
+
+def field_codes(body, field):
+    """(change reasons, flag codes) recorded for one field of a response."""
+    return ([c["reason"] for c in body["changes"] if c["field"] == field],
+            [f["code"] for f in body["flags"] if f["field"] == field])
+
+
+def today() -> dt.date:
+    return dt.date.fromisoformat(REFERENCE_DATE)

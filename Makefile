@@ -1,0 +1,32 @@
+# `make run` and `make test` do all set-up on a fresh machine: they create
+# .venv when it is missing and install the project into it.
+PYTHON ?= python3
+VENV   := .venv
+BIN    := $(VENV)/bin
+PIP    := $(BIN)/python -m pip install --quiet --disable-pip-version-check -c constraints.txt
+HOST   ?= 127.0.0.1
+PORT   ?= 8080
+
+.PHONY: run test install check-rules
+
+$(BIN)/python:
+	$(PYTHON) -m venv $(VENV)
+
+$(VENV)/.installed-run: $(BIN)/python pyproject.toml constraints.txt
+	$(PIP) -e .
+	touch $@
+
+$(VENV)/.installed-test: $(VENV)/.installed-run
+	$(PIP) -e '.[test]'
+	touch $@
+
+install: $(VENV)/.installed-run
+
+run: $(VENV)/.installed-run
+	$(BIN)/cleaner serve --host $(HOST) --port $(PORT)
+
+test: $(VENV)/.installed-test
+	$(BIN)/python -m pytest
+
+check-rules: $(VENV)/.installed-run
+	$(BIN)/cleaner check-rules

@@ -1,0 +1,49 @@
+"""Service configuration, from environment variables (documented in the README)."""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Mapping
+from dataclasses import dataclass, fields
+
+from cleaner.options import InvalidInput, Options, read_options
+
+MIB = 1024 * 1024
+
+
+@dataclass(frozen=True)
+class Config:
+    max_body_bytes: int = MIB
+    rules_dir: str | None = None
+    default_country: str = "US"
+    default_date_order: str = "MDY"
+    log_level: str = "INFO"
+
+    @classmethod
+    def from_env(cls, environ: Mapping[str, str] = os.environ) -> Config:
+        given = {}
+        for spec in fields(cls):
+            name = f"CLEANER_{spec.name.upper()}"
+            if environ.get(name):
+                raw = environ[name]
+                try:
+                    given[spec.name] = int(raw) if spec.type == "int" else raw
+                except ValueError:
+                    raise ValueError(f"{name} must be a whole number") from None
+        return cls(**given).checked()
+
+    def checked(self) -> Config:
+        if self.max_body_bytes < 1024:
+            raise ValueError("CLEANER_MAX_BODY_BYTES must be at least 1024")
+        if self.log_level.upper() not in ("DEBUG", "INFO", "WARNING", "ERROR"):
+            raise ValueError("CLEANER_LOG_LEVEL must be DEBUG, INFO, WARNING or ERROR")
+        self.default_options()
+        return self
+
+    def default_options(self) -> Options:
+        """Options a request gets for what it does not say; today is taken per request."""
+        try:
+            return read_options({"country": self.default_country,
+                                 "date_order": self.default_date_order})
+        except InvalidInput as exc:
+            raise ValueError(f"default options: {exc}") from None

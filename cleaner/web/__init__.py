@@ -1,0 +1,51 @@
+"""The HTTP service: an app factory in the manner of Flask's own tutorial."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, replace
+from typing import Any
+
+from flask import Flask, Response
+
+from cleaner.config import Config
+from cleaner.engine import load_rules
+from cleaner.options import Options
+from cleaner.rules import RuleBook
+from cleaner.web import api, logs, meta, problems
+
+
+@dataclass(frozen=True)
+class Service:
+    rules: RuleBook
+    config: Config
+
+    def default_options(self) -> Options:
+        return self.config.default_options()
+
+
+def create_app(config: Config | Mapping[str, Any] | None = None) -> Flask:
+    """Build the service. `config` overrides the environment's settings."""
+    if config is None:
+        config = Config.from_env()
+    elif isinstance(config, Mapping):
+        config = replace(Config.from_env(), **config).checked()
+    app = Flask("cleaner")
+    app.config["MAX_CONTENT_LENGTH"] = config.max_body_bytes
+    app.json.sort_keys = False
+    app.json.compact = True
+    # Rules are read and checked here, once; a broken table stops start-up.
+    app.extensions["cleaner"] = Service(rules=load_rules(config.rules_dir), config=config)
+    logs.configure(app, config.log_level)
+    problems.register(app)
+    app.register_blueprint(api.bp)
+    app.register_blueprint(meta.bp)
+
+    @app.after_request
+    def protect(response: Response) -> Response:
+        # Responses carry patient data: no cache may keep them, no browser may sniff them.
+        response.headers["Cache-Control"] = "no-store"
+        response.headers["X-Content-Type-Options"] = "nosniff"
+        return response
+
+    return app

@@ -1,0 +1,51 @@
+"""One JSON log line per request, to stderr: ids, route, status, timing and
+counts. Never a value from the request: not its body, query string or path."""
+
+from __future__ import annotations
+
+import json
+import logging
+import re
+import sys
+import time
+import uuid
+
+from flask import Flask, Response, g, request
+
+_REQUEST_ID = re.compile(r"^[A-Za-z0-9._:-]{1,128}$")
+_LOG_FIELDS = ("request_id", "method", "route", "status", "duration_ms", "records",
+               "changes", "flags", "error_type")
+
+
+class JsonFormatter(logging.Formatter):
+    def format(self, record: logging.LogRecord) -> str:
+        line = {"time": time.strftime("%Y-%m-%dT%H:%M:%S", time.gmtime(record.created)),
+                "level": record.levelname.lower(), "event": record.getMessage()}
+        line.update((name, getattr(record, name)) for name in _LOG_FIELDS if hasattr(record, name))
+        return json.dumps(line)
+
+
+def configure(app: Flask, level: str) -> None:
+    handler = logging.StreamHandler(sys.stderr)
+    handler.setFormatter(JsonFormatter())
+    app.logger.handlers[:] = [handler]
+    app.logger.setLevel(level.upper())
+    app.logger.propagate = False
+
+    @app.before_request
+    def start() -> None:
+        g.started = time.perf_counter()
+        given = request.headers.get("X-Request-ID", "")
+        g.request_id = given if _REQUEST_ID.match(given) else uuid.uuid4().hex
+
+    @app.after_request
+    def finish(response: Response) -> Response:
+        response.headers["X-Request-ID"] = g.get("request_id", "")
+        rule = request.url_rule
+        app.logger.info("request", extra={
+            "request_id": g.get("request_id"), "method": request.method,
+            "route": rule.rule if rule else "(no route)", "status": response.status_code,
+            "duration_ms": round((time.perf_counter() - g.get("started", time.perf_counter()))
+                                 * 1000, 3),
+            **g.get("counts", {})})
+        return response

@@ -57,7 +57,8 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> EmailRules:
         placeholder_local_parts=frozenset(folded["placeholder_local_parts"]),
         placeholder_domains=frozenset(folded["placeholder_domains"]),
         reserved_domains=frozenset(folded["reserved_domains"]),
-        reserved_suffixes=tuple(folded["reserved_suffixes"]))
+        reserved_suffixes=tuple(folded["reserved_suffixes"])
+        + tuple("." + domain for domain in folded["reserved_domains"]))
 
 
 def is_addr_spec(address: str) -> bool:

@@ -78,6 +78,8 @@ def pointer_messages(messages: Any, prefix: str) -> list[tuple[str, str]]:
 
 
 _UNKNOWN_FIELD = "Unknown field."
+# Member names come from the caller and are not echoed back (they could be anything).
+UNKNOWN_OPTION = "holds a member that is not an option (country, date_order, reference_date)"
 
 
 def read_options(given: Any, defaults: Options | None = None) -> Options:
@@ -92,7 +94,9 @@ def read_options(given: Any, defaults: Options | None = None) -> Options:
     try:
         loaded = OptionsSchema().load(given)
     except ValidationError as exc:
-        problems = pointer_messages(exc.messages, "/options")
-        raise InvalidInput([(pointer, "is not a known option" if message == _UNKNOWN_FIELD
-                             else message) for pointer, message in problems]) from None
+        problems = [(pointer, message) for pointer, message in
+                    pointer_messages(exc.messages, "/options") if message != _UNKNOWN_FIELD]
+        if any(_UNKNOWN_FIELD in messages for messages in exc.messages.values()):
+            problems.append(("/options", UNKNOWN_OPTION))
+        raise InvalidInput(problems) from None
     return replace(base, **loaded)

@@ -51,3 +51,16 @@ def field_codes(body, field):
 
 def today() -> dt.date:
     return dt.date.fromisoformat(REFERENCE_DATE)
+
+
+def pytest_collection_modifyitems(session, config, items):
+    """Run the reasons coverage check last, after every other test has emitted its codes."""
+    last = [item for item in items if item.get_closest_marker("after_all")]
+    items[:] = [item for item in items if item not in last] + last
+    config.whole_suite_selected = not (config.getoption("keyword") or config.getoption("markexpr")
+                                       or config.getoption("lf") or config.getoption("deselect")) \
+        and all(arg.rstrip("/").endswith("tests") for arg in config.args)
+
+
+def pytest_configure(config):
+    config.addinivalue_line("markers", "after_all: run after every other collected test")

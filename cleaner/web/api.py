@@ -34,8 +34,9 @@ def read_json_body() -> Any:
 def _clean_request(body: Any) -> tuple[Any, Any]:
     if not isinstance(body, dict):
         raise InvalidInput([("", "must be an object with a record member")])
-    unknown = [(f"/{key}", "is not a member of this request") for key in body
-               if key not in _CLEAN_MEMBERS]
+    # Member names come from the caller and are not echoed back.
+    unknown = [("", "holds a member other than record and options")] \
+        if set(body) - set(_CLEAN_MEMBERS) else []
     if "record" not in body:
         unknown.append(("/record", "is required"))
     if unknown:

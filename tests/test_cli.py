@@ -1,0 +1,80 @@
+"""The `cleaner` command: the service under gunicorn, and the rules check."""
+
+from __future__ import annotations
+
+import json
+import signal
+import socket
+import subprocess
+import sys
+import time
+import urllib.request
+
+import pytest
+
+from cleaner.cli import main
+
+COMMAND = [sys.executable, "-m", "cleaner.cli"]
+
+
+def free_port() -> int:
+    with socket.socket() as probe:
+        probe.bind(("127.0.0.1", 0))
+        return probe.getsockname()[1]
+
+
+def wait_until_up(url: str, process: subprocess.Popen, seconds: float = 60) -> None:
+    deadline = time.monotonic() + seconds
+    while time.monotonic() < deadline:
+        if process.poll() is not None:
+            raise AssertionError(f"the service exited with {process.returncode}")
+        try:
+            with urllib.request.urlopen(url, timeout=2):
+                return
+        except OSError:
+            time.sleep(0.2)
+    raise AssertionError("the service did not come up")
+
+
+@pytest.fixture
+def service():
+    port = free_port()
+    process = subprocess.Popen([*COMMAND, "serve", "--port", str(port), "--workers", "2"],
+                               stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    try:
+        wait_until_up(f"http://127.0.0.1:{port}/healthz", process)
+        yield process, f"http://127.0.0.1:{port}"
+    finally:
+        if process.poll() is None:
+            process.kill()
+        process.communicate(timeout=30)
+
+
+def test_serve_answers_and_stops_gracefully_on_sigterm(service):
+    process, base = service
+    request = urllib.request.Request(
+        f"{base}/v1/clean", method="POST", headers={"Content-Type": "application/json"},
+        data=json.dumps({"record": {"sex": "F", "email": "ruth.q@Example.org"}}).encode())
+    with urllib.request.urlopen(request, timeout=10) as response:
+        body = json.load(response)
+    assert body["record"]["sex"]["value"] == "female"
+    process.send_signal(signal.SIGTERM)
+    assert process.wait(timeout=60) == 0
+
+
+def test_serve_refuses_to_start_on_broken_rules(tmp_path):
+    (tmp_path / "manifest.toml").write_text('version = "one"\n')
+    completed = subprocess.run([*COMMAND, "serve", "--port", str(free_port())],
+                               env={"CLEANER_RULES_DIR": str(tmp_path), "PATH": ""},
+                               capture_output=True, text=True, timeout=60)
+    assert completed.returncode == 2 and "cannot start" in completed.stderr
+
+
+def test_check_rules_prints_the_version(capsys, rules):
+    assert main(["check-rules"]) == 0
+    assert rules.version in capsys.readouterr().out
+
+
+def test_check_rules_reports_a_broken_folder(tmp_path, capsys):
+    assert main(["check-rules", "--dir", str(tmp_path)]) == 1
+    assert "not valid" in capsys.readouterr().err

@@ -1,0 +1,233 @@
+"""The HTTP service, held to openapi.yaml: every response a test gets here is
+validated against the document (openapi-core)."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+import yaml
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+from openapi_core import Config as OpenAPIConfig
+from openapi_core import OpenAPI
+from openapi_core.contrib.werkzeug import WerkzeugOpenAPIRequest, WerkzeugOpenAPIResponse
+from werkzeug.test import EnvironBuilder
+from werkzeug.wrappers import Request
+
+from cleaner.web import create_app
+
+SPEC_PATH = Path(__file__).parent.parent / "openapi.yaml"
+SPEC = OpenAPI.from_file_path(str(SPEC_PATH), config=OpenAPIConfig(
+    extra_media_type_deserializers={"application/problem+json": json.loads}))
+
+
+class Api:
+    """A test client whose every response must match openapi.yaml."""
+
+    def __init__(self, app):
+        self.client = app.test_client()
+
+    def call(self, method, path, documented=True, **kwargs):
+        response = self.client.open(path, method=method, **kwargs)
+        if documented:
+            sent = Request(EnvironBuilder(path=path, method=method,
+                                          base_url="http://127.0.0.1:8080", **kwargs).get_environ())
+            SPEC.validate_response(WerkzeugOpenAPIRequest(sent), WerkzeugOpenAPIResponse(response))
+        return response
+
+    def clean(self, record, **options):
+        body = {"record": record}
+        if options:
+            body["options"] = options
+        return self.call("POST", "/v1/clean", json=body)
+
+
+@pytest.fixture(scope="module")
+def app():
+    return create_app({"max_body_bytes": 64 * 1024})
+
+
+@pytest.fixture(scope="module")
+def api(app):
+    return Api(app)
+
+
+def is_problem(response, status):
+    body = response.get_json(force=True)
+    return (response.status_code == status and response.mimetype == "application/problem+json"
+            and body["status"] == status and body["type"].startswith("urn:")
+            and body["title"] and body["detail"])
+
+
+def test_clean_one_record(api):
+    response = api.clean({"sex": "F", "email": "R.Quill@Example.ORG ", "ssn": "219 45 0172"},
+                         reference_date="2026-12-02")
+    assert response.status_code == 200
+    body = response.get_json()
+    assert body["record"]["sex"] == {"value": "female", "valid": True}
+    assert body["record"]["email"]["value"] == "R.Quill@example.org"
+    assert body["keys"]["ssn"] == "219450172"
+
+
+def test_reasons_lists_every_code_with_its_source(api, rules):
+    listed = api.call("GET", "/v1/reasons").get_json()["reasons"]
+    assert {r["code"] for r in listed} == set(rules.reasons)
+    assert all(r["source"] and r["description"] for r in listed)
+    assert all((r["kind"] == "flag") == ("severity" in r) for r in listed)
+
+
+def test_health_reports_the_rules_version(api, rules):
+    assert api.call("GET", "/healthz").get_json() == {"status": "ok",
+                                                       "rules_version": rules.version}
+
+
+def test_openapi_document_is_served_as_is(api):
+    response = api.call("GET", "/openapi.yaml")
+    assert response.mimetype == "application/yaml"
+    assert response.get_data(as_text=True) == SPEC_PATH.read_text(encoding="utf-8")
+    assert set(yaml.safe_load(response.get_data())["paths"]) == {
+        "/v1/clean", "/v1/reasons", "/healthz", "/openapi.yaml"}
+
+
+def test_every_route_is_documented(app):
+    routes = {rule.rule for rule in app.url_map.iter_rules() if rule.endpoint != "static"}
+    documented = set(yaml.safe_load(SPEC_PATH.read_text(encoding="utf-8"))["paths"])
+    assert routes == documented
+
+
+@pytest.mark.parametrize("data, content_type, status", [
+    (b'{"record": {"sex": "F"', "application/json", 400),
+    (b"\xff\xfe{}", "application/json", 400),
+    (b'{"record": NaN}', "application/json", 400),
+    (b"[" * 5000 + b"]" * 5000, "application/json", 400),
+    (b'{"record": {}}', "text/plain", 415),
+    (b'{"record": {}}', "", 415),
+    (b"[]", "application/json", 422),
+    (b'{"options": {}}', "application/json", 422),
+    (b'{"record": {}, "extra": 1}', "application/json", 422),
+    (b'{"record": {}, "options": {"date_order": "XYZ"}}', "application/json", 422),
+    (b'{"record": {}, "options": {"reference_date": "yesterday"}}', "application/json", 422),
+    (b'{"record": {"birth_date": {"y": 1980}}}', "application/json", 422),
+])
+def test_bad_requests_get_problem_details(api, data, content_type, status):
+    response = api.call("POST", "/v1/clean", data=data, content_type=content_type)
+    assert is_problem(response, status)
+
+
+def test_invalid_bodies_point_at_the_member(api):
+    response = api.call("POST", "/v1/clean", json={"record": {"sex": ["F"]},
+                                                  "options": {"country": "XX"}})
+    pointers = {e["pointer"] for e in response.get_json()["errors"]}
+    assert pointers == {"/options/country"}
+    response = api.clean({"sex": ["F"]})
+    assert [e["pointer"] for e in response.get_json()["errors"]] == ["/record/sex"]
+
+
+def test_a_body_over_the_limit_is_refused(api):
+    response = api.clean({"extra_notes": "x" * (70 * 1024)})
+    assert is_problem(response, 413)
+
+
+@pytest.mark.parametrize("method, path, status", [
+    ("GET", "/v1/clean", 405), ("DELETE", "/healthz", 405), ("GET", "/v2/clean", 404),
+    ("POST", "/v1/clean/Ruth-Quill", 404),
+])
+def test_unknown_paths_and_methods(api, method, path, status):
+    response = api.call(method, path, documented=False)
+    assert is_problem(response, status)
+    assert "Ruth" not in response.get_data(as_text=True)
+
+
+def test_deeply_nested_extra_values_come_back(api):
+    nested = 1
+    for _ in range(400):
+        nested = [nested]
+    response = api.clean({"notes": nested})
+    assert response.status_code == 200 and response.get_json()["record"]["extra"]["notes"] == nested
+
+
+def test_headers_protect_patient_data(api):
+    response = api.clean({"sex": "F"})
+    assert response.headers["Cache-Control"] == "no-store"
+    assert response.headers["X-Content-Type-Options"] == "nosniff"
+
+
+def test_request_id_is_kept_or_made(api):
+    given_id = api.clean({}, ).headers["X-Request-ID"]
+    assert len(given_id) == 32
+    response = api.call("POST", "/v1/clean", json={"record": {}},
+                        headers={"X-Request-ID": "intake-desk-4:0042"})
+    assert response.headers["X-Request-ID"] == "intake-desk-4:0042"
+    response = api.call("POST", "/v1/clean", json={"record": {}},
+                        headers={"X-Request-ID": "not a valid id!"})
+    assert response.headers["X-Request-ID"] != "not a valid id!"
+
+
+def test_environment_sets_the_default_options(monkeypatch):
+    monkeypatch.setenv("CLEANER_DEFAULT_COUNTRY", "MX")
+    response = create_app().test_client().post("/v1/clean", json={"record": {"sex": "mujer"}})
+    assert response.status_code == 200
+    monkeypatch.setenv("CLEANER_DEFAULT_DATE_ORDER", "sideways")
+    with pytest.raises(ValueError, match="default options"):
+        create_app()
+
+
+# A record of distinctive invented values: none may reach a log line or a problem body.
+SECRETS = {"ssn": "219-45-0172", "email": "zephyrine.quillfeather@clinic-mail.org",
+           "sex": "Zorblax", "birth_date": "1931-07-19", "phone": "(217) 555-0188",
+           "mother_maiden_name": "Ravensworth"}
+
+
+def _secret_fragments():
+    return [v for v in SECRETS.values()] + ["219450172", "Quillfeather", "5550188"]
+
+
+@pytest.mark.parametrize("body, content_type", [
+    (json.dumps({"record": SECRETS}), "application/json"),
+    (json.dumps({"record": SECRETS, "options": {"date_order": "Ravensworth"}}), "application/json"),
+    (json.dumps({"record": {**SECRETS, "sex": ["Zorblax"]}}), "application/json"),
+    (json.dumps({"record": SECRETS})[:-3], "application/json"),
+    (json.dumps({"record": SECRETS}), "text/csv"),
+    (json.dumps({"Ravensworth": SECRETS}), "application/json"),
+])
+def test_no_patient_value_in_logs_or_problems(capsys, body, content_type):
+    client = create_app().test_client()
+    response = client.post("/v1/clean?name=Quillfeather", data=body, content_type=content_type,
+                           headers={"X-Request-ID": "desk-7"})
+    client.get("/v1/Ravensworth")
+    logs = capsys.readouterr().err
+    assert logs.count('"request_id": "desk-7"') == 1
+    shown = logs + (response.get_data(as_text=True) if response.status_code != 200 else "")
+    for fragment in _secret_fragments():
+        assert fragment not in shown
+    for line in logs.splitlines():
+        assert set(json.loads(line)) <= {"time", "level", "event", "request_id", "method", "route",
+                                         "status", "duration_ms", "records", "changes", "flags",
+                                         "error_type"}
+
+
+def test_flag_messages_never_quote_the_value(api):
+    body = api.clean(SECRETS).get_json()
+    messages = " ".join(flag["message"] for flag in body["flags"])
+    assert body["flags"] and not any(fragment in messages for fragment in _secret_fragments())
+
+
+json_values = st.recursive(
+    st.none() | st.booleans() | st.integers() | st.floats(allow_nan=False, allow_infinity=False)
+    | st.text(), lambda inner: st.lists(inner, max_size=4) | st.dictionaries(st.text(), inner,
+                                                                             max_size=4),
+    max_leaves=12)
+record_keys = st.sampled_from(["birth_date", "sex", "phone", "email", "ssn", "name", "other"])
+
+
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(record=st.dictionaries(record_keys, json_values, max_size=6) | json_values,
+       options=st.none() | st.dictionaries(
+           st.sampled_from(["country", "date_order", "reference_date", "x"]), json_values,
+           max_size=3))
+def test_any_json_body_gets_a_documented_answer_never_a_500(api, record, options):
+    body = {"record": record} if options is None else {"record": record, "options": options}
+    response = api.call("POST", "/v1/clean", json=body)
+    assert response.status_code in (200, 422)

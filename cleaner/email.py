@@ -7,12 +7,12 @@ import re
 from dataclasses import dataclass
 from typing import Any
 
-from marshmallow import Schema, fields
+from marshmallow import Schema
 
 from cleaner import text
 from cleaner.fieldkind import FieldKind, Outcome
 from cleaner.options import Options
-from cleaner.rules import LoadContext, RuleBook
+from cleaner.rules import LoadContext, RuleBook, string_lists
 from cleaner.trail import Trail
 
 # RFC 5322 section 3.2.3 atext, widened to UTF-8 by RFC 6532 section 3.2.
@@ -39,13 +39,9 @@ class EmailRules:
     reserved_suffixes: tuple[str, ...]
 
 
-class _EmailRulesSchema(Schema):
-    strip_prefixes = fields.List(fields.String(), required=True)
-    no_email_texts = fields.List(fields.String(), required=True)
-    placeholder_local_parts = fields.List(fields.String(), required=True)
-    placeholder_domains = fields.List(fields.String(), required=True)
-    reserved_domains = fields.List(fields.String(), required=True)
-    reserved_suffixes = fields.List(fields.String(), required=True)
+_EmailRulesSchema = Schema.from_dict(string_lists(
+    "strip_prefixes", "no_email_texts", "placeholder_local_parts", "placeholder_domains",
+    "reserved_domains", "reserved_suffixes"))
 
 
 def compile_rules(data: dict[str, Any], context: LoadContext) -> EmailRules:

@@ -59,6 +59,11 @@ class LoadContext:
 Compiler = Callable[[dict[str, Any], LoadContext], Any]
 
 
+def string_lists(*names: str) -> dict[str, fields.Field]:
+    """Schema fields for required tables that are plain lists of strings."""
+    return {name: fields.List(fields.String(), required=True) for name in names}
+
+
 class ReasonSchema(Schema):
     code = fields.String(required=True, validate=validate.Regexp(CODE_PATTERN))
     kind = fields.String(required=True, validate=validate.OneOf(("change", "flag")))

@@ -11,7 +11,7 @@ from marshmallow import Schema, fields
 from cleaner import text
 from cleaner.fieldkind import FieldKind, Outcome
 from cleaner.options import Options
-from cleaner.rules import DigitRanges, LoadContext, RuleBook
+from cleaner.rules import DigitRanges, LoadContext, RuleBook, string_lists
 from cleaner.trail import Trail
 
 SSN_DIGITS = 9
@@ -29,15 +29,11 @@ class SsnRules:
     repeated_digit_is_placeholder: bool
 
 
-class _SsnRulesSchema(Schema):
-    separators = fields.String(required=True)
-    never_issued_areas = fields.List(fields.String(), required=True)
-    never_issued_groups = fields.List(fields.String(), required=True)
-    never_issued_serials = fields.List(fields.String(), required=True)
-    itin_areas = fields.List(fields.String(), required=True)
-    itin_groups = fields.List(fields.String(), required=True)
-    placeholders = fields.List(fields.String(), required=True)
-    repeated_digit_is_placeholder = fields.Boolean(required=True)
+_SsnRulesSchema = Schema.from_dict({
+    "separators": fields.String(required=True),
+    "repeated_digit_is_placeholder": fields.Boolean(required=True),
+    **string_lists("never_issued_areas", "never_issued_groups", "never_issued_serials",
+                   "itin_areas", "itin_groups", "placeholders")})
 
 
 def compile_rules(data: dict[str, Any], context: LoadContext) -> SsnRules:

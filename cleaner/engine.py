@@ -41,7 +41,7 @@ def default_rules() -> RuleBook:
 def _shape_problems(key: str, value: Any, accepts_list: bool) -> list[tuple[str, str]]:
     if accepts_list and isinstance(value, list):
         return [(f"/record/{key}/{index}", "must be a string or a number")
-                for index, item in enumerate(value) if not _is_scalar(item)]
+                for index, item in enumerate(value) if item is not None and not _is_scalar(item)]
     if value is None or _is_scalar(value):
         return []
     return [(f"/record/{key}", "must be a string, a number or a list of them" if accepts_list

@@ -7,7 +7,6 @@ from dataclasses import dataclass
 from typing import Any
 
 from marshmallow import Schema, fields, validate
-from unidecode import unidecode
 
 from cleaner import text
 from cleaner.fieldkind import FieldKind, Outcome
@@ -31,16 +30,12 @@ class _RowSchema(Schema):
     source = fields.String(required=True, validate=validate.Length(min=3))
 
 
-def fold(word: str) -> str:
-    return unidecode(word).casefold().strip()
-
-
 def compile_rules(data: dict[str, Any], context: LoadContext) -> dict[str, GenderMapping]:
     rows = context.read_csv(data["table"])
     table: dict[str, GenderMapping] = {}
     for number, row in enumerate(rows, start=1):
         entry = context.validated(_RowSchema(), row, f" {data['table']} row {number}")
-        key = fold(entry["input"])
+        key = text.fold(entry["input"])
         if key in table:
             raise RulesError(f"sex: {data['table']} lists {key!r} twice")
         context.require_codes([entry["flag"]], f"{data['table']} row {number}")
@@ -53,7 +48,7 @@ def clean_sex(raw: Any, options: Options, rules: RuleBook) -> Outcome:
     word = text.tidy(trail)
     if word is None:
         return Outcome(None, [trail])
-    mapping = rules["sex"].get(fold(word))
+    mapping = rules["sex"].get(text.fold(word))
     if mapping is None:
         trail.flag("sex.unrecognised")
         return Outcome({"value": trail.revert(), "valid": False}, [trail])

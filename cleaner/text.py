@@ -9,6 +9,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from marshmallow import Schema, fields, validate
+from unidecode import unidecode
 
 from cleaner.rules import LoadContext
 from cleaner.trail import Trail
@@ -38,6 +39,11 @@ class _TextRulesSchema(Schema):
 
 def compile_rules(data: dict[str, Any], context: LoadContext) -> TextRules:
     return TextRules(**context.validated(_TextRulesSchema(), data))
+
+
+def fold(word: str) -> str:
+    """A word as vocabulary tables list it: accents folded to ASCII, case folded."""
+    return unidecode(word).casefold().strip()
 
 
 def as_text(trail: Trail) -> str:

@@ -4,11 +4,13 @@ every code listed in rules/ must be emitted by at least one test."""
 from __future__ import annotations
 
 import datetime as dt
+import shutil
 
 import pytest
 
 import cleaner
 from cleaner import engine
+from cleaner.rules import default_directory
 from cleaner.trail import Trail
 
 REFERENCE_DATE = "2026-12-02"
@@ -32,6 +34,14 @@ Trail.flag = _record_codes(Trail.flag)
 @pytest.fixture(scope="session")
 def rules():
     return engine.default_rules()
+
+
+@pytest.fixture
+def rules_copy(tmp_path):
+    """A writable copy of the embedded rules folder."""
+    target = tmp_path / "rules"
+    shutil.copytree(default_directory(), target)
+    return target
 
 
 @pytest.fixture

@@ -2,13 +2,12 @@
 
 from __future__ import annotations
 
-import shutil
 
 import pytest
 
 import cleaner
 from cleaner import engine
-from cleaner.rules import DigitRanges, RulesError, default_directory
+from cleaner.rules import DigitRanges, RulesError
 from cleaner.trail import Trail, UnknownReason
 
 
@@ -91,13 +90,6 @@ def test_digit_ranges():
     assert "000" in ranges and "950" in ranges and "899" not in ranges and "0000" not in ranges
     with pytest.raises(RulesError):
         DigitRanges.parse(["9-99"], "test")
-
-
-@pytest.fixture
-def rules_copy(tmp_path):
-    target = tmp_path / "rules"
-    shutil.copytree(default_directory(), target)
-    return target
 
 
 def test_rules_version_changes_with_any_table(rules_copy):

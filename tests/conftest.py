@@ -44,6 +44,14 @@ def rules_copy(tmp_path):
     return target
 
 
+def edit_rules(folder, name, old, new):
+    """Replace the first `old` in rules file `name` of `folder` with `new`."""
+    path = folder / name
+    content = path.read_text(encoding="utf-8")
+    assert old in content
+    path.write_text(content.replace(old, new, 1), encoding="utf-8")
+
+
 @pytest.fixture
 def clean():
     """cleaner.clean with a fixed reference date, options as keywords."""

@@ -14,7 +14,7 @@ import cleaner
 from cleaner import engine
 from cleaner.dates import spreadsheet_serial_to_date
 from cleaner.rules import RulesError
-from conftest import REFERENCE_DATE, field_codes, today
+from conftest import REFERENCE_DATE, edit_rules, field_codes, today
 from reference import table
 
 
@@ -549,10 +549,7 @@ def test_the_iso_fast_path_agrees_with_the_general_reader(day):
 # ---- the rules are data --------------------------------------------------------------
 
 def edit_dates_toml(folder, old, new):
-    path = folder / "dates.toml"
-    content = path.read_text(encoding="utf-8")
-    assert old in content
-    path.write_text(content.replace(old, new, 1), encoding="utf-8")
+    edit_rules(folder, "dates.toml", old, new)
 
 
 def test_a_new_word_in_the_table_is_read(rules_copy):

@@ -16,6 +16,7 @@ from dataclasses import dataclass
 from types import MappingProxyType
 from typing import Any, NamedTuple
 
+from dateutil.relativedelta import relativedelta
 from marshmallow import Schema, fields, validate
 
 from cleaner import text
@@ -328,12 +329,10 @@ def _readings(value: str, vocabulary: DateVocabulary, options: Options) -> Tiers
 @functools.lru_cache(maxsize=64)
 def _earliest_birth(reference: dt.date, max_age: int) -> dt.date:
     """The earliest birth date of someone no older than `max_age` on `reference`."""
-    year = reference.year - max_age - 1
-    if year < dt.MINYEAR:
+    if reference.year - max_age - 1 < dt.MINYEAR:
         return dt.date.min
-    # A reference date of 29 February falls on the 28th in a common year.
-    day = min(reference.day, calendar.monthrange(year, reference.month)[1])
-    return dt.date(year, reference.month, day) + dt.timedelta(days=1)
+    # relativedelta moves a reference date of 29 February to the 28th in a common year.
+    return reference - relativedelta(years=max_age + 1) + dt.timedelta(days=1)
 
 
 class Choice(NamedTuple):

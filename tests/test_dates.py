@@ -582,3 +582,11 @@ def test_a_broken_dates_table_stops_start_up(rules_copy, old, new, message):
     edit_dates_toml(rules_copy, old, new)
     with pytest.raises(RulesError, match=message):
         engine.load_rules(rules_copy)
+
+
+def test_the_age_limit_on_a_leap_day_reference(clean):
+    """On 2028-02-29 a person born 1907-02-28 turned 121 the day before; one born 1907-03-01 is 120."""
+    over = clean({"birth_date": "1907-02-28"}, reference_date="2028-02-29")
+    within = clean({"birth_date": "1907-03-01"}, reference_date="2028-02-29")
+    assert "dates.over_max_age" in field_codes(over, "birth_date")[1]
+    assert "dates.over_max_age" not in field_codes(within, "birth_date")[1]

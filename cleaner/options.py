@@ -64,6 +64,10 @@ class OptionsSchema(Schema):
         return data
 
 
+# Building a marshmallow schema costs more than loading with it; one serves all requests.
+_OPTIONS_SCHEMA = OptionsSchema()
+
+
 def pointer_messages(messages: Any, prefix: str) -> list[tuple[str, str]]:
     """Flatten marshmallow's nested error dict into JSON pointers."""
     if isinstance(messages, Mapping):
@@ -91,8 +95,10 @@ def read_options(given: Any, defaults: Options | None = None) -> Options:
         return given
     if not isinstance(given, Mapping):
         raise InvalidInput([("/options", "must be an object")])
+    if not given:
+        return base
     try:
-        loaded = OptionsSchema().load(given)
+        loaded = _OPTIONS_SCHEMA.load(given)
     except ValidationError as exc:
         problems = [(pointer, message) for pointer, message in
                     pointer_messages(exc.messages, "/options") if message != _UNKNOWN_FIELD]

@@ -41,7 +41,7 @@ class Config:
         return self
 
     def default_options(self) -> Options:
-        """Options a request gets for what it does not say; today is taken per request."""
+        """Options a request gets for what it does not say (its reference date is taken per request)."""
         try:
             return read_options({"country": self.default_country,
                                  "date_order": self.default_date_order})

@@ -58,13 +58,12 @@ class Trail:
             self.value = new_value
         return new_value
 
-    def flag(self, code: str, **details: Any) -> None:
-        """Note something a person may need to look at; `details` must hold no free text."""
+    def flag(self, code: str) -> None:
+        """Note something a person may need to look at. The message is the
+        code's fixed description, so a flag never quotes the value."""
         reason = self._reason(code, "flag")
-        entry = {"field": self.field, "code": code, "severity": reason.severity,
-                 "message": reason.description}
-        entry.update(details)
-        self.flags.append(entry)
+        self.flags.append({"field": self.field, "code": code, "severity": reason.severity,
+                           "message": reason.description})
 
     def revert(self) -> Any:
         """Give the value back exactly as sent: for a value that cannot be cleaned."""
@@ -72,9 +71,6 @@ class Trail:
             self.value = self.changes[0]["from"]
             self.changes.clear()
         return self.value
-
-    def has_flag(self, *codes: str) -> bool:
-        return any(flag["code"] in codes for flag in self.flags)
 
     def fork(self, field: str) -> Trail:
         """A trail for one of several outputs made from this one input (a list

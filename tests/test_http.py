@@ -3,6 +3,7 @@ validated against the document (openapi-core)."""
 
 from __future__ import annotations
 
+import datetime as dt
 import json
 from pathlib import Path
 
@@ -231,3 +232,11 @@ def test_any_json_body_gets_a_documented_answer_never_a_500(api, record, options
     body = {"record": record} if options is None else {"record": record, "options": options}
     response = api.call("POST", "/v1/clean", json=body)
     assert response.status_code in (200, 422)
+
+
+def test_the_default_reference_date_is_today(api):
+    soon = (dt.date.today() + dt.timedelta(days=2)).isoformat()
+    recent = (dt.date.today() - dt.timedelta(days=2)).isoformat()
+    flags = {value: [f["code"] for f in api.clean({"birth_date": value}).get_json()["flags"]]
+             for value in (soon, recent)}
+    assert flags == {soon: ["dates.future"], recent: []}

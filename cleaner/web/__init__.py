@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import datetime as dt
 from collections.abc import Mapping
 from dataclasses import dataclass, replace
 from typing import Any
@@ -18,10 +19,11 @@ from cleaner.web import api, logs, meta, problems
 @dataclass(frozen=True)
 class Service:
     rules: RuleBook
-    config: Config
+    defaults: Options  # checked once at start-up
 
     def default_options(self) -> Options:
-        return self.config.default_options()
+        """The configured defaults, with today as the reference date of this request."""
+        return replace(self.defaults, reference_date=dt.date.today())
 
 
 def create_app(config: Config | Mapping[str, Any] | None = None) -> Flask:
@@ -35,7 +37,8 @@ def create_app(config: Config | Mapping[str, Any] | None = None) -> Flask:
     app.json.sort_keys = False
     app.json.compact = True
     # Rules are read and checked here, once; a broken table stops start-up.
-    app.extensions["cleaner"] = Service(rules=load_rules(config.rules_dir), config=config)
+    app.extensions["cleaner"] = Service(rules=load_rules(config.rules_dir),
+                                        defaults=config.default_options())
     logs.configure(app, config.log_level)
     problems.register(app)
     app.register_blueprint(api.bp)

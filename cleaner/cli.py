@@ -55,6 +55,13 @@ def _check_rules(args: argparse.Namespace) -> int:
     return 0
 
 
+def _at_least_one(text: str) -> int:
+    number = int(text)
+    if number < 1:
+        raise argparse.ArgumentTypeError("must be 1 or more")
+    return number
+
+
 def parser() -> argparse.ArgumentParser:
     top = argparse.ArgumentParser(prog="cleaner", description=(
         "Standardise patient demographics before records are matched."))
@@ -63,9 +70,9 @@ def parser() -> argparse.ArgumentParser:
     serve = commands.add_parser("serve", help="run the HTTP service under gunicorn")
     serve.add_argument("--host", default="127.0.0.1", help="address to listen on (default 127.0.0.1)")
     serve.add_argument("--port", type=int, default=8080, help="port (default 8080)")
-    serve.add_argument("--workers", type=int, default=os.cpu_count() or 1,
+    serve.add_argument("--workers", type=_at_least_one, default=os.cpu_count() or 1,
                        help="sync worker processes (default: one per core)")
-    serve.add_argument("--timeout", type=int, default=30,
+    serve.add_argument("--timeout", type=_at_least_one, default=30,
                        help="seconds a worker may spend on one request before it is restarted")
     serve.set_defaults(run=_serve)
 

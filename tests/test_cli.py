@@ -78,3 +78,10 @@ def test_check_rules_prints_the_version(capsys, rules):
 def test_check_rules_reports_a_broken_folder(tmp_path, capsys):
     assert main(["check-rules", "--dir", str(tmp_path)]) == 1
     assert "not valid" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("flag", ["--workers", "--timeout"])
+def test_serve_refuses_a_count_below_one(flag, capsys):
+    with pytest.raises(SystemExit):
+        main(["serve", flag, "0"])
+    assert "must be 1 or more" in capsys.readouterr().err

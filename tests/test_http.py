@@ -199,14 +199,14 @@ def test_no_patient_value_in_logs_or_problems(capsys, body, content_type):
                            headers={"X-Request-ID": "desk-7"})
     client.get("/v1/Ravensworth")
     logs = capsys.readouterr().err
-    assert logs.count('"request_id": "desk-7"') == 1
+    assert logs.count('"request_id": "desk-7"') == 1 and '"event": "rules loaded"' in logs
     shown = logs + (response.get_data(as_text=True) if response.status_code != 200 else "")
     for fragment in _secret_fragments():
         assert fragment not in shown
     for line in logs.splitlines():
         assert set(json.loads(line)) <= {"time", "level", "event", "request_id", "method", "route",
                                          "status", "duration_ms", "records", "changes", "flags",
-                                         "error_type"}
+                                         "error_type", "rules_version", "codes"}
 
 
 def test_flag_messages_never_quote_the_value(api):

@@ -43,6 +43,9 @@ def create_app(config: Config | Mapping[str, Any] | None = None) -> Flask:
     problems.register(app)
     app.register_blueprint(api.bp)
     app.register_blueprint(meta.bp)
+    rules = app.extensions["cleaner"].rules
+    app.logger.info("rules loaded", extra={"rules_version": rules.version,
+                                           "codes": len(rules.reasons)})
 
     @app.after_request
     def protect(response: Response) -> Response:

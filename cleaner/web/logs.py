@@ -14,7 +14,7 @@ from flask import Flask, Response, g, request
 
 _REQUEST_ID = re.compile(r"^[A-Za-z0-9._:-]{1,128}$")
 _LOG_FIELDS = ("request_id", "method", "route", "status", "duration_ms", "records",
-               "changes", "flags", "error_type")
+               "changes", "flags", "error_type", "rules_version", "codes")
 
 
 class JsonFormatter(logging.Formatter):

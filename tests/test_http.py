@@ -17,6 +17,7 @@ from openapi_core.contrib.werkzeug import WerkzeugOpenAPIRequest, WerkzeugOpenAP
 from werkzeug.test import EnvironBuilder
 from werkzeug.wrappers import Request
 
+import cleaner
 from cleaner.web import create_app
 
 SPEC_PATH = Path(__file__).parent.parent / "openapi.yaml"
@@ -240,3 +241,8 @@ def test_the_default_reference_date_is_today(api):
     flags = {value: [f["code"] for f in api.clean({"birth_date": value}).get_json()["flags"]]
              for value in (soon, recent)}
     assert flags == {soon: ["dates.future"], recent: []}
+
+
+def test_the_python_api_returns_exactly_the_http_body(api):
+    options = {"reference_date": "2026-12-02", "date_order": "DMY", "country": "GB"}
+    assert api.clean(SECRETS, **options).get_json() == cleaner.clean(SECRETS, options)

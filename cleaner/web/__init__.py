@@ -37,15 +37,14 @@ def create_app(config: Config | Mapping[str, Any] | None = None) -> Flask:
     app.json.sort_keys = False
     app.json.compact = True
     # Rules are read and checked here, once; a broken table stops start-up.
-    app.extensions["cleaner"] = Service(rules=load_rules(config.rules_dir),
-                                        defaults=config.default_options())
+    service = Service(rules=load_rules(config.rules_dir), defaults=config.default_options())
+    app.extensions["cleaner"] = service
     logs.configure(app, config.log_level)
     problems.register(app)
     app.register_blueprint(api.bp)
     app.register_blueprint(meta.bp)
-    rules = app.extensions["cleaner"].rules
-    app.logger.info("rules loaded", extra={"rules_version": rules.version,
-                                           "codes": len(rules.reasons)})
+    app.logger.info("rules loaded", extra={"rules_version": service.rules.version,
+                                           "codes": len(service.rules.reasons)})
 
     @app.after_request
     def protect(response: Response) -> Response:

@@ -11,6 +11,7 @@ import phonenumbers
 from marshmallow import RAISE, Schema, ValidationError, fields, pre_load, validate
 
 DATE_ORDERS = ("MDY", "DMY", "YMD")
+NAME_ORDERS = ("given_first", "family_first")
 
 
 class InvalidInput(ValueError):
@@ -30,6 +31,7 @@ class Options:
     country: str = "US"
     date_order: str = "MDY"
     reference_date: dt.date = field(default_factory=dt.date.today)
+    name_order: str = "given_first"
 
 
 COUNTRY_ERROR = "must be an ISO 3166-1 alpha-2 code such as US or MX"
@@ -53,6 +55,8 @@ class OptionsSchema(Schema):
         DATE_ORDERS, error="must be one of MDY, DMY or YMD"))
     reference_date = fields.Date(format="iso", error_messages={
         "invalid": "must be an ISO 8601 date such as 2026-12-02"})
+    name_order = fields.String(validate=validate.OneOf(
+        NAME_ORDERS, error="must be given_first or family_first"))
 
     @pre_load
     def normalise_case(self, data, **_):
@@ -61,6 +65,8 @@ class OptionsSchema(Schema):
             for key in ("country", "date_order"):
                 if isinstance(data.get(key), str):
                     data[key] = data[key].strip().upper()
+            if isinstance(data.get("name_order"), str):
+                data["name_order"] = data["name_order"].strip().lower()
         return data
 
 
@@ -83,7 +89,8 @@ def pointer_messages(messages: Any, prefix: str) -> list[tuple[str, str]]:
 
 _UNKNOWN_FIELD = "Unknown field."
 # Member names come from the caller and are not echoed back (they could be anything).
-UNKNOWN_OPTION = "holds a member that is not an option (country, date_order, reference_date)"
+UNKNOWN_OPTION = ("holds a member that is not an option "
+                  "(country, date_order, reference_date, name_order)")
 
 
 def read_options(given: Any, defaults: Options | None = None) -> Options:

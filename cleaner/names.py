@@ -1,0 +1,886 @@
+"""Person names: free text or parts, as HL7 FHIR HumanName parts with
+particle-aware family names, restored case, nickname variants, placeholder
+marks and phonetic match keys.
+
+Free text goes through small named stages: tokenize (words, commas, quoted
+nicknames), classify (title, suffix, credential, initial, number, word),
+group (comma segments, titles in front, suffixes and credentials behind),
+order (given or family first, inferred only with a flag), assign (family
+group with its particles, given, middles, newborn names), and assemble, where
+each part's words go through look-alike repair, punctuation, case and
+standard forms on the part's own trail. Parts sent apart go through the same
+classification and stages. The vocabulary is rules/names.toml; nothing here
+knows a particular name.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass, field
+from types import MappingProxyType
+from typing import Any
+
+import jellyfish
+from marshmallow import Schema, fields, validate
+from unidecode import unidecode
+
+from cleaner import text
+from cleaner.fieldkind import FieldKind, Outcome
+from cleaner.options import Options
+from cleaner.rules import LoadContext, RuleBook, RulesError, string_lists
+from cleaner.trail import Trail
+
+PARTS = ("prefix", "given", "middle", "family", "suffix")
+FAMILY_FIRST = "family_first"
+
+# A nickname is set apart by double quotes, curly quotes, brackets, or single
+# quotes that stand free (so the apostrophe of O'Brien is not one).
+_TOKEN = re.compile(r"""(?P<quoted>"[^"]*"|“[^”]*”|\([^)]*\)|\[[^\]]*\]"""
+                    r"""|(?<![^\s,])['‘][^'’]+['’](?![^\s,]))|(?P<comma>,)|(?P<word>[^\s,]+)""")
+_QUOTES = "\"“”()[]'‘’"
+_NOT_LETTER = re.compile(r"[^A-Z]")
+_APOSTROPHE_PREFIX = re.compile(r"^(\w)(['’])(\w)")
+# What a name word may hold besides letters: apostrophes, hyphens, periods.
+_NAME_WORD = re.compile(r"^[^\W\d_](?:[^\W\d_]|[\-'’.])*$")
+_VOWEL = re.compile(r"[AEIOUY]")
+
+
+# --- vocabulary ---------------------------------------------------------------
+
+@dataclass(frozen=True)
+class PlaceholderGroup:
+    code: str
+    texts: frozenset[str]        # whole values, case folded
+    words: frozenset[str]
+    pattern: re.Pattern[str] | None
+    names: tuple[frozenset[str], ...]
+    marks_given: bool            # newborn names: the given group gathers round the word
+
+    def marks(self, key: str) -> bool:
+        return key in self.words or (self.pattern is not None and self.pattern.search(key) is not None)
+
+
+@dataclass(frozen=True)
+class NameVocabulary:
+    """What rules/names.toml says, compiled once: the one object to replace
+    to read names of other conventions."""
+    max_length: int
+    max_words: int
+    titles: Mapping[str, str]
+    suffixes: Mapping[str, str]
+    credentials: Mapping[str, str]
+    comma_only_credentials: frozenset[str]
+    particles: Mapping[tuple[str, ...], str]   # folded words -> written form
+    longest_particle: int
+    hyphen_particles: Mapping[str, str]
+    joiners: frozenset[str]
+    family_first_surnames: frozenset[str]
+    surnames_not_given: frozenset[str]
+    surnames: frozenset[str]
+    given_names: frozenset[str]
+    variants: Mapping[str, tuple[str, ...]]
+    mac_names: Mapping[str, str]
+    lookalikes: Mapping[str, tuple[str, str]]
+    no_middle: frozenset[str]
+    fillers: frozenset[str]
+    no_name_texts: frozenset[str]
+    groups: tuple[PlaceholderGroup, ...]
+
+    def placeholder_group(self, key: str) -> PlaceholderGroup | None:
+        return next((group for group in self.groups if group.marks(key)), None)
+
+
+_WORD = validate.Regexp(r"^[^\s,]+$", error="must be one word")
+
+_GroupSchema = Schema.from_dict({
+    "code": fields.String(required=True),
+    "texts": fields.List(fields.String(), required=True),
+    "words": fields.List(fields.String(validate=_WORD), required=True),
+    "patterns": fields.List(fields.String(), required=True),
+    "names": fields.List(fields.List(fields.String(validate=_WORD), validate=validate.Length(min=2)),
+                         required=True),
+    "part": fields.String(required=True, validate=validate.OneOf(("given", "word"))),
+})
+
+_NameRulesSchema = Schema.from_dict({
+    "max_length": fields.Integer(required=True, strict=True, validate=validate.Range(min=20)),
+    "max_words": fields.Integer(required=True, strict=True, validate=validate.Range(min=4)),
+    **{name: fields.Dict(keys=fields.String(validate=_WORD), values=fields.String(), required=True)
+       for name in ("titles", "generational_suffixes", "credentials")},
+    **string_lists("credentials_after_comma_only", "particles", "hyphenated_particles",
+                   "surname_joiners",
+                   "family_first_surnames", "extra_given_names", "mac_surnames"),
+    "surnames_table": fields.String(required=True),
+    "nicknames_table": fields.String(required=True),
+    "lookalikes": fields.Dict(keys=fields.String(validate=validate.Regexp(r"^\d$")),
+                              values=fields.List(fields.String(validate=validate.Length(equal=1)),
+                                                 validate=validate.Length(equal=2)), required=True),
+    "no_middle": fields.Dict(keys=fields.String(), values=fields.List(fields.String()), required=True),
+    "placeholders": fields.Dict(required=True),
+})
+
+_PlaceholdersSchema = Schema.from_dict({
+    **string_lists("fillers", "no_name_texts"),
+    "groups": fields.List(fields.Nested(_GroupSchema), required=True),
+})
+
+
+def fold(word: str) -> str:
+    """A word as the vocabulary lists it: ASCII, case folded, no periods or quotes."""
+    return text.fold(word).replace(".", "").strip(_QUOTES)
+
+
+def _folded_map(table: Mapping[str, str]) -> Mapping[str, str]:
+    return MappingProxyType({fold(key): value for key, value in table.items()})
+
+
+def _read_surnames(context: LoadContext, name: str) -> dict[str, bool]:
+    rows = context.read_csv(name)
+    surnames = {}
+    for number, row in enumerate(rows, start=1):
+        if row.get("also_given") not in ("yes", "no") or not row.get("surname"):
+            raise RulesError(f"names: {name} row {number} needs a surname and also_given yes or no")
+        surnames[fold(row["surname"])] = row["also_given"] == "yes"
+    return surnames
+
+
+def _read_variants(context: LoadContext, name: str) -> dict[str, tuple[str, ...]]:
+    """Each name's nicknames and the names it is a nickname of, one hop both ways."""
+    linked: dict[str, set[str]] = {}
+    for number, row in enumerate(context.read_csv(name), start=1):
+        first, second = fold(row.get("name") or ""), fold(row.get("nickname") or "")
+        if not first or not second:
+            raise RulesError(f"names: {name} row {number} needs a name and a nickname")
+        linked.setdefault(first, set()).add(second)
+        linked.setdefault(second, set()).add(first)
+    return {key: tuple(sorted(others - {key})) for key, others in linked.items()}
+
+
+def _compile_groups(loaded: dict[str, Any], context: LoadContext) -> tuple[PlaceholderGroup, ...]:
+    groups = []
+    for entry in loaded["groups"]:
+        context.require_codes([entry["code"]], "placeholders.groups")
+        try:
+            pattern = re.compile("|".join(entry["patterns"])) if entry["patterns"] else None
+        except re.error as exc:
+            raise RulesError(f"names: a placeholder pattern of {entry['code']} is invalid: {exc}") \
+                from None
+        groups.append(PlaceholderGroup(
+            code=entry["code"], texts=frozenset(item.casefold() for item in entry["texts"]),
+            words=frozenset(map(fold, entry["words"])), pattern=pattern,
+            names=tuple(frozenset(map(fold, words)) for words in entry["names"]),
+            marks_given=entry["part"] == "given"))
+    return tuple(groups)
+
+
+def compile_rules(data: dict[str, Any], context: LoadContext) -> NameVocabulary:
+    loaded = context.validated(_NameRulesSchema(), data)
+    placeholders = context.validated(_PlaceholdersSchema(), loaded["placeholders"], " placeholders")
+    particles = {tuple(fold(word) for word in particle.split()): particle
+                 for particle in loaded["particles"]}
+    surnames = _read_surnames(context, loaded["surnames_table"])
+    variants = _read_variants(context, loaded["nicknames_table"])
+    return NameVocabulary(
+        max_length=loaded["max_length"], max_words=loaded["max_words"],
+        titles=_folded_map(loaded["titles"]),
+        suffixes=_folded_map(loaded["generational_suffixes"]),
+        credentials=_folded_map(loaded["credentials"]),
+        comma_only_credentials=frozenset(map(fold, loaded["credentials_after_comma_only"])),
+        particles=MappingProxyType(particles), longest_particle=max(map(len, particles)),
+        hyphen_particles=_folded_map({word: word for word in loaded["hyphenated_particles"]}),
+        joiners=frozenset(map(fold, loaded["surname_joiners"])),
+        family_first_surnames=frozenset(map(fold, loaded["family_first_surnames"])),
+        surnames_not_given=frozenset(name for name, given in surnames.items() if not given),
+        surnames=frozenset(surnames),
+        given_names=frozenset(variants) | frozenset(map(fold, loaded["extra_given_names"])),
+        variants=MappingProxyType(variants),
+        mac_names=_folded_map({name: name for name in loaded["mac_surnames"]}),
+        lookalikes=MappingProxyType({digit: tuple(forms)
+                                     for digit, forms in loaded["lookalikes"].items()}),
+        no_middle=frozenset(map(fold, loaded["no_middle"].get("words", []))),
+        fillers=frozenset(map(fold, placeholders["fillers"])),
+        no_name_texts=frozenset(item.casefold() for item in placeholders["no_name_texts"]),
+        groups=_compile_groups(placeholders, context))
+
+
+# --- tokenize and classify -----------------------------------------------------
+
+@dataclass(slots=True)
+class Word:
+    raw: str                 # as written in the tidied value
+    key: str                 # folded, for the vocabulary
+    kind: str                # nickname, title, suffix, credential, initial, number, word
+    restore_case: bool       # the value it came from was all upper or all lower case
+    particle: str | None = None   # written form, when it is a family name's particle
+    hyphen_particle: str | None = None   # written form of a particle joined by a hyphen (al-)
+
+
+def _kind(raw: str, key: str, quoted: bool, vocabulary: NameVocabulary) -> str:
+    if quoted:
+        return "nickname"
+    if key.isdigit():
+        return "number"
+    if key in vocabulary.titles:
+        return "title"
+    if key in vocabulary.suffixes:
+        return "suffix"
+    if key in vocabulary.credentials:
+        return "credential"
+    if len(key) == 1 and raw[0].isalpha():
+        return "initial"
+    return "word"
+
+
+def tokenize(value: str, vocabulary: NameVocabulary) -> list[list[Word]]:
+    """The words of `value` in comma-separated segments (a trailing comma leaves an empty one)."""
+    restore = _single_case(value)
+    segments: list[list[Word]] = [[]]
+    for match in _TOKEN.finditer(value):
+        if match["comma"]:
+            segments.append([])
+            continue
+        raw = match[0]
+        key = fold(raw)
+        segments[-1].append(Word(raw, key, _kind(raw, key, match["quoted"] is not None, vocabulary),
+                                 restore))
+    return segments
+
+
+def _single_case(value: str) -> bool:
+    return value.isupper() or value.islower()
+
+
+# --- group, order and assign ----------------------------------------------------
+
+@dataclass
+class Reading:
+    """Which words make which part, and what was inferred on the way."""
+    parts: dict[str, list[Word]] = field(default_factory=lambda: {part: [] for part in PARTS})
+    nickname: list[Word] = field(default_factory=list)
+    credentials: list[Word] = field(default_factory=list)
+    flags: list[str] = field(default_factory=list)
+    alternatives: list[dict[str, list[Word]]] = field(default_factory=list)
+
+
+def _is_tail_word(word: Word, after_comma: bool, vocabulary: NameVocabulary) -> bool:
+    """A suffix or credential that may close a name."""
+    if word.kind == "suffix":
+        return True
+    return word.kind == "credential" and (after_comma or word.key not in vocabulary.comma_only_credentials)
+
+
+def _take_tail(words: list[Word], reading: Reading, vocabulary: NameVocabulary,
+               keep: int, one_letter_suffix: bool) -> list[Word]:
+    """Move trailing suffixes and credentials of `words` out, keeping at least `keep` words."""
+    end = len(words)
+    while end > keep and _is_tail_word(words[end - 1], False, vocabulary) \
+            and (len(words[end - 1].key) > 1 or one_letter_suffix):
+        end -= 1
+    _sort_tail(words[end:], reading)
+    return words[:end]
+
+
+def _sort_tail(words: Iterable[Word], reading: Reading) -> None:
+    for word in words:
+        (reading.parts["suffix"] if word.kind == "suffix" else reading.credentials).append(word)
+
+
+def _take_titles(words: list[Word], reading: Reading) -> list[Word]:
+    start = 0
+    while start < len(words) - 1 and words[start].kind == "title":
+        start += 1
+    reading.parts["prefix"] += words[:start]
+    return words[start:]
+
+
+def _particle_before(words: list[Word], end: int, vocabulary: NameVocabulary,
+                     lowest: int) -> int | None:
+    """Start of the longest particle ending just before `end`, not below `lowest`."""
+    for length in range(min(vocabulary.longest_particle, end - lowest), 0, -1):
+        keys = tuple(word.key for word in words[end - length:end])
+        if keys in vocabulary.particles:
+            return end - length
+    return None
+
+
+def _particle_at(words: list[Word], start: int, vocabulary: NameVocabulary) -> int | None:
+    """End of the longest particle starting at `start` and followed by a word."""
+    for length in range(min(vocabulary.longest_particle, len(words) - start - 1), 0, -1):
+        keys = tuple(word.key for word in words[start:start + length])
+        if keys in vocabulary.particles:
+            return start + length
+    return None
+
+
+def _can_follow_particle(word: Word, vocabulary: NameVocabulary) -> bool:
+    return word.kind == "word" and word.key not in vocabulary.family_first_surnames
+
+
+def _mark_particles(family: list[Word], vocabulary: NameVocabulary) -> None:
+    for word in family:
+        first, hyphen, rest = word.raw.partition("-")
+        if hyphen and rest:
+            word.hyphen_particle = vocabulary.hyphen_particles.get(fold(first))
+    index = 0
+    while index < len(family) - 1:
+        end = _particle_at(family, index, vocabulary)
+        if end is not None and _can_follow_particle(family[end], vocabulary):
+            written = vocabulary.particles[tuple(word.key for word in family[index:end])].split()
+            for word, form in zip(family[index:end], written):
+                word.particle = form
+            index = end
+        else:
+            index += 1
+
+
+def _family_start_from_end(words: list[Word], vocabulary: NameVocabulary) -> int:
+    """Where the family name begins when it closes the name: the last word, with
+    the particles and joined surnames before it; the first word is never taken."""
+    start = len(words) - 1
+    while start > 1 and _can_follow_particle(words[start], vocabulary):
+        particle = _particle_before(words, start, vocabulary, lowest=1)
+        if particle is not None:
+            start = particle
+        elif words[start - 1].key in vocabulary.joiners and start >= 3:
+            start -= 2
+        else:
+            break
+    return start
+
+
+def _family_end_from_start(words: list[Word], vocabulary: NameVocabulary) -> int:
+    """Where the family name ends when it opens the name: its particles, a word,
+    and a joined second surname; the last word is never taken."""
+    end = _particle_at(words, 0, vocabulary) or 0
+    if end and not (end < len(words) - 1 and _can_follow_particle(words[end], vocabulary)):
+        end = 0
+    end += 1
+    if end + 2 < len(words) and words[end].key in vocabulary.joiners:
+        end += 2
+    return end
+
+
+def _is_surname_only(word: Word, vocabulary: NameVocabulary) -> bool:
+    return word.kind == "word" and word.key in vocabulary.surnames_not_given
+
+
+def _is_given_name(word: Word, vocabulary: NameVocabulary) -> bool:
+    return word.kind == "word" and word.key in vocabulary.given_names \
+        and word.key not in vocabulary.surnames_not_given
+
+
+def _newborn_marker(word: Word, vocabulary: NameVocabulary) -> bool:
+    group = vocabulary.placeholder_group(word.key)
+    return group is not None and group.marks_given
+
+
+def _family_first_evidence(words: list[Word], vocabulary: NameVocabulary) -> bool:
+    """Whether a given-first name without a comma reads better family first."""
+    first, second, last = words[0], words[1], words[-1]
+    upper_first = first.raw.isupper() and len(first.key) > 1 and _VOWEL.search(first.key.upper()) \
+        and first.kind == "word" and any(not word.raw.isupper() for word in words[1:])
+    family_first_surname = first.key in vocabulary.family_first_surnames \
+        and last.key not in vocabulary.family_first_surnames and last.key not in vocabulary.surnames
+    surname_before_given = _is_surname_only(first, vocabulary) and (
+        _is_given_name(second, vocabulary) or (
+            len(words) > 2 and _is_surname_only(second, vocabulary)
+            and _is_given_name(words[2], vocabulary)))
+    newborn_last = _newborn_marker(last, vocabulary) or (
+        len(words) > 2 and _newborn_marker(words[-2], vocabulary)
+        and last.kind in ("initial", "number"))
+    return bool(upper_first or family_first_surname or surname_before_given) or (
+        newborn_last and not _newborn_marker(first, vocabulary))
+
+
+def _given_and_middle(words: list[Word], vocabulary: NameVocabulary) -> tuple[list[Word], list[Word]]:
+    """The first word is the given name, unless newborn words gather the given
+    group round them (Baby Girl, Judy Girl A, Twin B)."""
+    markers = [index for index, word in enumerate(words) if _newborn_marker(word, vocabulary)]
+    if not markers:
+        return words[:1], words[1:]
+    end = markers[-1] + 1
+    if end < len(words) and words[end].kind in ("initial", "number"):
+        end += 1
+    return words[:end], words[end:]
+
+
+def _assign(words: list[Word], family_first: bool, vocabulary: NameVocabulary,
+            infer_compound: bool = True) -> tuple[dict[str, list[Word]], bool]:
+    """Given, middle and family of a name without commas, and whether a
+    two-part family name was inferred. Family first, every word after the
+    family name is given name (Xiaoming; Van An; Min Jun)."""
+    compound = False
+    if len(words) == 1:
+        return {"given": words, "middle": [], "family": []}, False
+    if family_first:
+        end = _family_end_from_start(words, vocabulary)
+        if infer_compound and end == 1 < len(words) - 1 and _is_surname_only(words[1], vocabulary):
+            end, compound = 2, True
+        return {"given": words[end:], "middle": [], "family": words[:end]}, compound
+    start = _family_start_from_end(words, vocabulary)
+    if infer_compound and start == len(words) - 1 >= 2 \
+            and _is_surname_only(words[start - 1], vocabulary):
+        start, compound = start - 1, True
+    given, middle = _given_and_middle(words[:start], vocabulary)
+    return {"given": given, "middle": middle, "family": words[start:]}, compound
+
+
+def _read_natural(words: list[Word], reading: Reading, order: str,
+                  vocabulary: NameVocabulary) -> None:
+    if not words:
+        return
+    words = _take_titles(words, reading)
+    words = _take_tail(words, reading, vocabulary, keep=1, one_letter_suffix=False)
+    if len(words) == 1 and reading.parts["prefix"]:
+        reading.parts["family"] = words
+        return
+    family_first = order == FAMILY_FIRST
+    inferred = not family_first and len(words) > 1 and _family_first_evidence(words, vocabulary)
+    if not (family_first or inferred) and len(words) > 2:
+        words = _take_tail(words, reading, vocabulary, keep=2, one_letter_suffix=True)
+    assigned, compound = _assign(words, family_first or inferred, vocabulary)
+    reading.parts.update(assigned)
+    if inferred:
+        reading.flags.append("names.family_first_inferred")
+        reading.alternatives.append(_assign(words, False, vocabulary, infer_compound=False)[0])
+    if compound:
+        reading.flags.append("names.compound_family_inferred")
+        reading.alternatives.append(
+            _assign(words, family_first or inferred, vocabulary, infer_compound=False)[0])
+
+
+def _read_comma_form(family: list[Word], rest: list[Word], reading: Reading,
+                     vocabulary: NameVocabulary) -> None:
+    family = _take_tail(family, reading, vocabulary, keep=1, one_letter_suffix=False)
+    rest = _take_titles(rest, reading)
+    rest = _take_tail(rest, reading, vocabulary, keep=1, one_letter_suffix=False)
+    given, middle = _given_and_middle(rest, vocabulary)
+    reading.parts.update(given=given, middle=middle, family=family)
+
+
+def read_name(segments: list[list[Word]], order: str, vocabulary: NameVocabulary) -> Reading:
+    """Assign every word of a free-text name to a part."""
+    reading = Reading()
+    reading.nickname = [word for segment in segments for word in segment if word.kind == "nickname"]
+    segments = [[word for word in segment if word.kind != "nickname"] for segment in segments]
+    tail: list[Word] = []
+    while len(segments) > 1 and segments[-1] and all(
+            _is_tail_word(word, True, vocabulary) for word in segments[-1]):
+        tail = segments.pop() + tail
+    if len(segments) == 1 or not segments[0]:
+        _read_natural([word for segment in segments for word in segment], reading, order,
+                      vocabulary)
+    else:
+        rest = [word for segment in segments[1:] for word in segment]
+        _read_comma_form(segments[0], rest, reading, vocabulary)
+    _sort_tail(tail, reading)
+    for word in reading.parts["family"]:
+        # A family name in capitals among mixed-case words is a convention, not a spelling.
+        word.restore_case = word.restore_case or (word.raw.isupper() and len(word.key) > 1)
+    _mark_particles(reading.parts["family"], vocabulary)
+    if sum(len(reading.parts[part]) for part in ("given", "middle", "family")) == 1:
+        reading.flags.append("names.single_word")
+    return reading
+
+
+# --- placeholders -----------------------------------------------------------------
+
+def _placeholder_only(value: str, words: list[Word], vocabulary: NameVocabulary) -> str | None:
+    """The code of a value that is a placeholder text, or made only of
+    placeholder words and fillers."""
+    folded = value.casefold()
+    code = next((group.code for group in vocabulary.groups if folded in group.texts), None)
+    if code:
+        return code
+    for word in words:
+        group = vocabulary.placeholder_group(word.key)
+        if group is not None:
+            code = code or group.code
+        elif not (word.kind in ("number", "initial") or word.key in vocabulary.fillers
+                  or not word.key):
+            return None
+    return code
+
+
+def _name_placeholder(words: list[Word], vocabulary: NameVocabulary) -> str | None:
+    keys = {word.key for word in words}
+    return next((group.code for group in vocabulary.groups
+                 if any(name <= keys for name in group.names)), None)
+
+
+def placeholder_marks(parts: Mapping[str, list[Word]], vocabulary: NameVocabulary
+                      ) -> tuple[list[str], set[str]]:
+    """Placeholder codes found, and which parts are placeholders."""
+    words = [word for part in ("given", "middle", "family") for word in parts[part]]
+    whole = _name_placeholder(words, vocabulary)
+    if whole:
+        return [whole], {"given", "middle", "family"}
+    codes: list[str] = []
+    marked: set[str] = set()
+    for part in ("given", "middle", "family"):
+        for word in parts[part]:
+            group = vocabulary.placeholder_group(word.key)
+            if group is not None:
+                marked.add(part)
+                if group.code not in codes:
+                    codes.append(group.code)
+    return codes, marked
+
+
+# --- each part's stages: look-alikes, punctuation, case, standard form -------
+
+def repair_lookalikes(raw: str, vocabulary: NameVocabulary) -> str:
+    """Digits typed inside a word of letters, as the letter they look like in
+    the case of the letters beside them."""
+    if raw.isalpha() or sum(ch.isalpha() for ch in raw) < 2:
+        return raw
+    letters = [ch for ch in raw if ch.isalpha()]
+    repaired = []
+    for index, ch in enumerate(raw):
+        forms = vocabulary.lookalikes.get(ch)
+        if forms is None:
+            repaired.append(ch)
+            continue
+        beside = [c for c in raw[max(index - 1, 0):index] + raw[index + 1:index + 2] if c.isalpha()]
+        repaired.append(forms[0] if (beside or letters)[0].isupper() else forms[1])
+    return "".join(repaired)
+
+
+def proper_case(raw: str, part: str, vocabulary: NameVocabulary) -> str:
+    """A word typed in one case, in the case names are written in."""
+    return "-".join(_proper_piece(piece, part, vocabulary) for piece in raw.split("-"))
+
+
+def _proper_piece(piece: str, part: str, vocabulary: NameVocabulary) -> str:
+    lower = piece.lower()
+    if not lower:
+        return piece
+    if part == "family":
+        mac = vocabulary.mac_names.get(fold(piece))
+        if mac is not None:
+            return mac
+    if lower.startswith("mc") and len(lower) > 3 and lower[2].isalpha():
+        return "Mc" + lower[2].upper() + lower[3:]
+    apostrophe = _APOSTROPHE_PREFIX.match(lower)
+    if apostrophe:
+        return apostrophe[1].upper() + apostrophe[2] + apostrophe[3].upper() + lower[3:]
+    return lower[0].upper() + lower[1:]
+
+
+# The part whose words of one kind are written in the vocabulary's standard form.
+_STANDARD_FORMS = {"prefix": ("title", "titles", "names.title_standardised"),
+                   "suffix": ("suffix", "suffixes", "names.suffix_standardised"),
+                   "credentials": ("credential", "credentials", "names.credential_standardised")}
+
+
+@dataclass(frozen=True, slots=True)
+class WordStages:
+    """One word's text after each stage."""
+    split: str
+    repaired: str
+    unpunctuated: str
+    cased: str
+    standard: str
+
+
+def _unpunctuated(word: Word, raw: str) -> str:
+    if word.kind == "nickname":
+        return raw.strip(_QUOTES).strip()
+    if word.kind in ("initial", "word") and raw.count(".") == 1:
+        return raw.rstrip(".")
+    return raw
+
+
+def word_stages(word: Word, part: str, vocabulary: NameVocabulary) -> WordStages:
+    repaired = repair_lookalikes(word.raw, vocabulary) if word.kind == "word" else word.raw
+    unpunctuated = _unpunctuated(word, repaired)
+    standard_kind, table, _ = _STANDARD_FORMS.get(part, (None, None, None))
+    if word.kind == standard_kind:
+        return WordStages(word.raw, repaired, unpunctuated, unpunctuated,
+                          getattr(vocabulary, table)[word.key])
+    cased = unpunctuated
+    if word.restore_case and word.kind != "number":
+        cased = proper_case(unpunctuated, part, vocabulary)
+        if part == "family" and word.particle is not None:
+            cased = word.particle
+        elif part == "family" and word.hyphen_particle is not None:
+            cased = word.hyphen_particle + cased[cased.index("-"):]
+    return WordStages(word.raw, repaired, unpunctuated, cased, cased)
+
+
+def _joined(stages: list[WordStages], stage: str) -> str:
+    return " ".join(getattr(step, stage) for step in stages)
+
+
+def run_stages(trail: Trail, words: list[Word], part: str,
+               vocabulary: NameVocabulary) -> list[str]:
+    """Take a part's words through the stages, each recorded on the part's
+    trail; returns each word as finally written."""
+    stages = [word_stages(word, part, vocabulary) for word in words]
+    trail.apply(_joined(stages, "repaired"), "names.lookalikes_repaired")
+    if any(step.repaired != step.split for step in stages):
+        trail.flag("names.lookalikes")
+    trail.apply(_joined(stages, "unpunctuated"), "names.punctuation_removed")
+    trail.apply(_joined(stages, "cased"), "names.case_restored")
+    if part in _STANDARD_FORMS:
+        trail.apply(_joined(stages, "standard"), _STANDARD_FORMS[part][2])
+    if any(word.kind == "word" and _NAME_WORD.match(step.repaired) is None
+           for word, step in zip(words, stages)):
+        trail.flag("names.unexpected_characters")
+    return [step.standard for step in stages]
+
+
+# --- match keys -----------------------------------------------------------------
+
+def folded_key(value: str) -> str:
+    """Upper-case ASCII letters only: accents folded, spaces and punctuation gone."""
+    return _NOT_LETTER.sub("", unidecode(value).upper())
+
+
+def _phonetic_keys(part: str, folded: str) -> dict[str, str]:
+    return {f"{part}_folded": folded, f"{part}_soundex": jellyfish.soundex(folded),
+            f"{part}_nysiis": jellyfish.nysiis(folded),
+            f"{part}_metaphone": jellyfish.metaphone(folded)}
+
+
+def match_keys(given: str | None, family: list[tuple[Word, str]],
+               vocabulary: NameVocabulary) -> dict[str, Any]:
+    """Folded and phonetic keys of a given name and of a family name (its words
+    with their written forms), and each part of the family name without particles."""
+    keys: dict[str, Any] = {}
+    folded_family = folded_key(" ".join(written for _, written in family))
+    if folded_family:
+        keys.update(_phonetic_keys("family", folded_family))
+        core = [folded_key(piece) for word, written in family
+                if word.particle is None and word.key not in vocabulary.joiners
+                for piece in written.split("-")[1 if word.hyphen_particle else 0:]]
+        core = [piece for piece in core if piece] or [folded_family]
+        keys["family_core"] = "".join(core)
+        keys["family_parts"] = core
+    folded_given = folded_key(given or "")
+    if folded_given:
+        keys.update(_phonetic_keys("given", folded_given))
+        keys["given_initial"] = folded_given[0]
+    return keys
+
+
+# --- assemble --------------------------------------------------------------------
+
+@dataclass
+class Assembly:
+    """What the assembler gets from either input form: each part's words and
+    the trail that carries them, credentials with theirs, parts kept as sent,
+    and the whole name's flags and alternative readings."""
+    words: dict[str, list[Word]] = field(default_factory=dict)
+    trails: dict[str, Trail] = field(default_factory=dict)
+    credentials: list[tuple[Word, Trail]] = field(default_factory=list)
+    as_sent: dict[str, Trail] = field(default_factory=dict)   # placeholder parts, kept as sent
+    emptied: list[Trail] = field(default_factory=list)        # parts that end null
+    flags: list[str] = field(default_factory=list)
+    alternatives: list[dict[str, list[Word]]] = field(default_factory=list)
+
+
+def _empty_name() -> dict[str, Any]:
+    return {"prefix": None, "given": None, "middle": None, "family": None, "suffix": None,
+            "nickname": None, "credentials": [], "particles": None, "given_variants": [],
+            "alternatives": [], "placeholder": False, "valid": True}
+
+
+def _given_variants(given: list[Word], vocabulary: NameVocabulary) -> list[str]:
+    if not given or given[0].kind != "word":
+        return []
+    return [variant.capitalize() for variant in vocabulary.variants.get(given[0].key, ())]
+
+
+def _alternative(parts: Mapping[str, list[Word]], vocabulary: NameVocabulary) -> dict[str, Any]:
+    return {part: " ".join(word_stages(word, part, vocabulary).standard
+                           for word in parts[part]) or None
+            for part in ("given", "middle", "family")}
+
+
+def assemble(assembly: Assembly, name_trail: Trail, vocabulary: NameVocabulary) -> Outcome:
+    name = _empty_name()
+    trails: list[Trail] = []
+    written: dict[str, list[str]] = {}
+    for part, trail in assembly.trails.items():
+        words = assembly.words[part]
+        trails.append(trail)
+        if part == "middle" and all(word.key in vocabulary.no_middle for word in words):
+            trail.apply(None, "names.no_middle_cleared")
+            continue
+        written[part] = run_stages(trail, words, part, vocabulary)
+        name[part] = trail.value
+    for part, trail in assembly.as_sent.items():
+        name[part] = trail.value
+        trails.append(trail)
+    trails += assembly.emptied
+    for word, trail in assembly.credentials:
+        run_stages(trail, [word], "credentials", vocabulary)
+        name["credentials"].append(trail.value)
+        trails.append(trail)
+    if assembly.credentials:
+        name_trail.flag("names.credentials_found")
+
+    family = assembly.words.get("family", [])
+    name["particles"] = " ".join(word.particle or word.hyphen_particle for word in family
+                                 if word.particle or word.hyphen_particle) or None
+    codes, placeholder_parts = placeholder_marks(
+        {part: assembly.words.get(part, []) for part in ("given", "middle", "family")}, vocabulary)
+    placeholder_parts |= set(assembly.as_sent)
+    for code in [*codes, *assembly.flags]:
+        name_trail.flag(code)
+    name["placeholder"] = bool(codes or assembly.as_sent)
+    name["alternatives"] = [_alternative(parts, vocabulary) for parts in assembly.alternatives]
+    given = None if "given" in placeholder_parts else name["given"]
+    if given:
+        name["given_variants"] = _given_variants(assembly.words["given"], vocabulary)
+    family_written = [] if "family" in placeholder_parts or "family" not in written \
+        else list(zip(family, written["family"]))
+    keys = match_keys(given, family_written, vocabulary)
+    return Outcome(name, trails + [name_trail], keys)
+
+
+# --- the two input forms ------------------------------------------------------------
+
+def _unparsed(trail: Trail, code: str) -> Outcome:
+    trail.flag(code)
+    name = _empty_name()
+    name.update(value=trail.revert(), valid=False, placeholder=code != "names.unparsed")
+    return Outcome(name, [trail])
+
+
+def _missing_text(value: str, vocabulary: NameVocabulary) -> str | None:
+    """The code of a value that says there is no name, or holds no letters."""
+    if value.casefold() in vocabulary.no_name_texts or not any(ch.isalpha() for ch in value):
+        return "names.placeholder_missing"
+    return None
+
+
+def clean_free_text(raw: Any, order: str, rules: RuleBook) -> Outcome:
+    vocabulary: NameVocabulary = rules["names"]
+    trail = Trail("name", raw, rules.reasons)
+    value = text.tidy(trail)
+    if value is None:
+        return Outcome(None, [trail])
+    if len(value) > vocabulary.max_length:
+        return _unparsed(trail, "names.unparsed")
+    segments = tokenize(value, vocabulary)
+    words = [word for segment in segments for word in segment]
+    problem = "names.unparsed" if len(words) > vocabulary.max_words \
+        else _missing_text(value, vocabulary) or _placeholder_only(value, words, vocabulary)
+    if problem:
+        return _unparsed(trail, problem)
+    reading = read_name(segments, order, vocabulary)
+    assembly = Assembly(flags=reading.flags, alternatives=reading.alternatives)
+    for part, part_words in [*reading.parts.items(), ("nickname", reading.nickname)]:
+        if part_words:
+            assembly.words[part] = part_words
+            assembly.trails[part] = trail.fork(f"name.{part}")
+            assembly.trails[part].apply(" ".join(word.raw for word in part_words),
+                                        "names.split_into_parts")
+    for index, word in enumerate(reading.credentials):
+        credential_trail = trail.fork(f"name.credentials[{index}]")
+        credential_trail.apply(word.raw, "names.split_into_parts")
+        assembly.credentials.append((word, credential_trail))
+    return assemble(assembly, Trail("name", raw, rules.reasons), vocabulary)
+
+
+def _move(source: Trail, words: list[Word], moving: list[Word], target: str,
+          reason: str) -> tuple[list[Word], Trail]:
+    """Move `moving` out of the part that `source` follows, onto a new trail
+    for `target` that starts from the same raw value."""
+    moved = source.fork(target)
+    moved.apply(" ".join(word.raw for word in moving), reason)
+    remaining = [word for word in words if word not in moving]
+    source.apply(" ".join(word.raw for word in remaining) or None, reason)
+    return remaining, moved
+
+
+def _misplaced(words: list[Word], part: str, suffix_sent: bool,
+               vocabulary: NameVocabulary) -> list[Word]:
+    """Quoted nicknames anywhere, and the suffixes and credentials that close
+    a part they do not belong to: a credential in the suffix, a suffix or a
+    credential after a given, middle or family name."""
+    quoted = [word for word in words if word.kind == "nickname"]
+    if part == "suffix":
+        return quoted + [word for word in words if word.kind == "credential"]
+    end = len(words)
+    while end > 1 and _is_tail_word(words[end - 1], False, vocabulary) \
+            and len(words[end - 1].key) > 1 and not (words[end - 1].kind == "suffix" and suffix_sent):
+        end -= 1
+    return quoted + words[end:]
+
+
+_MOVES = (("nickname", "name.nickname", "names.nickname_moved"),
+          ("suffix", "name.suffix", "names.part_moved"))
+
+
+def clean_parts(raw: Mapping[str, Any], rules: RuleBook) -> Assembly:
+    """Parts sent apart, each on its own trail. A part that is a placeholder is
+    kept as sent; words that belong to another part are moved there."""
+    vocabulary: NameVocabulary = rules["names"]
+    assembly = Assembly()
+    for part in PARTS:
+        if raw.get(part) is None:
+            continue
+        trail = Trail(f"name.{part}", raw[part], rules.reasons)
+        value = text.tidy(trail)
+        if value is None:
+            assembly.emptied.append(trail)
+            continue
+        words = [word for segment in tokenize(value, vocabulary) for word in segment]
+        too_long = len(value) > vocabulary.max_length or len(words) > vocabulary.max_words
+        code = "names.unparsed" if too_long else _missing_text(value, vocabulary)
+        if code:
+            trail.revert()
+            assembly.as_sent[part] = trail
+            assembly.flags.append(code)
+            continue
+        assembly.words[part], assembly.trails[part] = words, trail
+
+    for part in ("given", "middle", "family", "suffix"):
+        if part not in assembly.trails:
+            continue
+        trail, words = assembly.trails[part], assembly.words[part]
+        misplaced = _misplaced(words, part, "suffix" in assembly.trails, vocabulary)
+        for kind, target, reason in _MOVES:
+            moving = [word for word in misplaced if word.kind == kind]
+            if moving and target.split(".")[1] not in assembly.trails:
+                words, assembly.trails[kind] = _move(trail, words, moving, target, reason)
+                assembly.words[kind] = moving
+        for word in (word for word in misplaced if word.kind == "credential"):
+            words, moved = _move(trail, words, [word],
+                                 f"name.credentials[{len(assembly.credentials)}]",
+                                 "names.part_moved")
+            assembly.credentials.append((word, moved))
+        assembly.words[part] = words
+        if not words:
+            assembly.emptied.append(assembly.trails.pop(part))
+    if "family" in assembly.words:
+        _mark_particles(assembly.words["family"], vocabulary)
+    return assembly
+
+
+def clean_name(raw: Any, options: Options, rules: RuleBook) -> Outcome:
+    """A free-text `name`, or a dict of the keys that were sent: the parts are
+    used when any was sent, and a free text sent beside them comes back as sent."""
+    vocabulary: NameVocabulary = rules["names"]
+    if not isinstance(raw, Mapping):
+        return clean_free_text(raw, options.name_order, rules)
+    if not any(raw.get(part) is not None for part in PARTS):
+        if raw.get("name") is None:
+            return Outcome(None, [])
+        return clean_free_text(raw["name"], options.name_order, rules)
+    name_trail = Trail("name", raw.get("name"), rules.reasons)
+    outcome = assemble(clean_parts(raw, rules), name_trail, vocabulary)
+    if raw.get("name") is not None:
+        name_trail.flag("names.free_text_unused")
+        outcome.value["value"] = raw["name"]
+    return outcome
+
+
+
+
+KIND = FieldKind(name="names", input_keys=("name", *PARTS), output_key="name",
+                 clean=clean_name, compile_rules=compile_rules)

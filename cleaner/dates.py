@@ -394,7 +394,7 @@ def _assemble(trail: Trail, choice: Choice, vocabulary: DateVocabulary) -> Outco
     keys: dict[str, Any] = {}
     if not (choice.problem or placeholder):
         if reading.precision == "day":
-            keys["birth_date"] = value
+            keys["birth_date"] = value.replace("-", "")  # YYYYMMDD, as linkage keys are compared
         keys["birth_year"] = reading.first.year
     # The rules' severities decide validity, so a table can make a flag fatal.
     valid = all(flag["severity"] != "invalid" for flag in trail.flags)

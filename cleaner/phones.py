@@ -393,6 +393,7 @@ def _read_words(trail: Trail, value: str, rules: RuleBook) -> tuple[str, str | N
 class Cleaned(NamedTuple):
     entry: dict[str, Any]
     key: str | None                     # the E.164 match key, when the number may be matched
+    digits: str | None = None           # its national significant number, matched without a country code
 
 
 def _uncleanable(trail: Trail, code: str, split_part: str | None) -> Cleaned:
@@ -449,7 +450,9 @@ def clean_number(trail: Trail, value: str, region: str, rules: RuleBook,
     entry = {"e164": reading.e164, "extension": extension, "region": reading.region,
              "type": reading.type, "valid": reading.valid, "use": use,
              "national": reading.national}
-    return Cleaned(entry, reading.e164 if reading.valid and not placeholder else None)
+    matchable = reading.valid and not placeholder
+    return Cleaned(entry, reading.e164 if matchable else None,
+                   reading.national_number if matchable else None)
 
 
 # --- one cell, and the field ------------------------------------------------
@@ -480,6 +483,7 @@ def clean_phones(raw: Any, options: Options, rules: RuleBook) -> Outcome:
     entries: list[dict[str, Any]] = []
     trails: list[Trail] = []
     keys: list[str] = []
+    digits: list[str] = []
     for item in raw if isinstance(raw, list) else [raw]:
         if item is None:
             continue
@@ -494,7 +498,9 @@ def clean_phones(raw: Any, options: Options, rules: RuleBook) -> Outcome:
             trails.append(number_trail)
             if cleaned.key:
                 keys.append(cleaned.key)
-    return Outcome(entries, trails, {"phones": list(dict.fromkeys(keys))} if keys else {})
+                digits.append(cleaned.digits)
+    return Outcome(entries, trails, {"phones": list(dict.fromkeys(keys)),
+                                     "phone_digits": list(dict.fromkeys(digits))} if keys else {})
 
 
 KIND = FieldKind(name="phones", input_keys=("phone",), output_key="phones",

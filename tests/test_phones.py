@@ -62,7 +62,7 @@ def test_a_us_number_comes_back_in_e164_with_its_details(clean):
                      "type": "fixed_line_or_mobile", "valid": True, "use": None,
                      "national": "(217) 555-0142"}
     assert changes == ["phones.formatted_e164"] and flags == ["phones.fictional_range"]
-    assert keys == {"phones": ["+12175550142"]}
+    assert keys == {"phones": ["+12175550142"], "phone_digits": ["2175550142"]}
 
 
 @pytest.mark.parametrize("value", ["(217) 555-0142", "217-555-0142", "217.555.0142",
@@ -160,7 +160,7 @@ def test_international_prefixes_are_those_of_real_regions(rules, prefix, region)
 def test_the_nanp_fictional_range_is_noted_but_valid(clean, value):
     entry, _, flags, keys = only(clean, value)
     assert entry["valid"] is True and flags == ["phones.fictional_range"]
-    assert keys == {"phones": [entry["e164"]]}
+    assert keys == {"phones": [entry["e164"]], "phone_digits": [entry["e164"][2:]]}
 
 
 @pytest.mark.parametrize("value", ["217-555-0099", "217-555-0200", "217-556-0142"])
@@ -187,7 +187,7 @@ def test_extensions_are_kept_apart(clean, value):
     """Common practice (no source); ';ext=' is the tel URI parameter of RFC 3966."""
     entry, changes, _, keys = only(clean, value)
     assert (entry["e164"], entry["extension"]) == ("+12175550142", "12")
-    assert "phones.extension_split" in changes and keys == {"phones": ["+12175550142"]}
+    assert "phones.extension_split" in changes and keys == {"phones": ["+12175550142"], "phone_digits": ["2175550142"]}
 
 
 def test_a_label_after_the_extension_still_gives_the_use(clean):
@@ -263,7 +263,7 @@ def test_unknown_words_are_removed_for_review(clean, value):
     entry, changes, flags, keys = only(clean, value)
     assert entry["e164"] == "+12175550142" and entry["use"] is None
     assert changes == ["phones.text_removed", "phones.formatted_e164"]
-    assert "phones.unrecognised_text" in flags and keys == {"phones": ["+12175550142"]}
+    assert "phones.unrecognised_text" in flags and keys == {"phones": ["+12175550142"], "phone_digits": ["2175550142"]}
 
 
 @pytest.mark.parametrize("value, repaired", [("217-555-O142", "217-555-0142"),
@@ -296,7 +296,8 @@ def test_look_alikes_and_keypad_letters_in_one_number(clean):
 def test_several_numbers_in_one_cell_become_several_entries(clean, value):
     entries, body = phones_of(clean, value)
     assert [entry["e164"] for entry in entries] == ["+12175550142", "+12175550199"]
-    assert body["keys"] == {"phones": ["+12175550142", "+12175550199"]}
+    assert body["keys"] == {"phones": ["+12175550142", "+12175550199"],
+                           "phone_digits": ["2175550142", "2175550199"]}
     assert field_codes(body, "phones[1]")[0][0] == "phones.split_multiple"
     assert_chains(body, [value, value])
 
@@ -348,7 +349,8 @@ def test_a_list_of_cells(clean):
         ("+12175550142", None), ("+12175550199", "mobile"), ("+12175550143", None),
         ("+12175550144", None)]
     assert_chains(body, [raw[0], raw[2], raw[2], raw[3]])
-    assert body["keys"] == {"phones": [e["e164"] for e in entries]}
+    assert body["keys"] == {"phones": [e["e164"] for e in entries],
+                           "phone_digits": [e["e164"][2:] for e in entries]}
     assert [c["field"] for c in body["changes"] if c["from"] == "  "] == ["phones"]
 
 
@@ -361,7 +363,7 @@ def test_null_items_of_a_list_are_skipped(clean):
 def test_the_same_number_twice_is_one_key(clean):
     body = clean({"phone": ["217-555-0142", "(217) 555-0142 home"]})
     assert len(body["record"]["phones"]) == 2
-    assert body["keys"] == {"phones": ["+12175550142"]}
+    assert body["keys"] == {"phones": ["+12175550142"], "phone_digits": ["2175550142"]}
 
 
 # --- international prefixes --------------------------------------------------

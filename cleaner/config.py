@@ -17,6 +17,7 @@ class Config:
     rules_dir: str | None = None
     default_country: str = "US"
     default_date_order: str = "MDY"
+    default_name_order: str = "given_first"
     log_level: str = "INFO"
 
     @classmethod
@@ -44,6 +45,7 @@ class Config:
         """Options a request gets for what it does not say (its reference date is taken per request)."""
         try:
             return read_options({"country": self.default_country,
-                                 "date_order": self.default_date_order})
+                                 "date_order": self.default_date_order,
+                                 "name_order": self.default_name_order})
         except InvalidInput as exc:
             raise ValueError(f"default options: {exc}") from None

@@ -676,7 +676,7 @@ class Assembly:
     trails: dict[str, Trail] = field(default_factory=dict)
     credentials: list[tuple[Word, Trail]] = field(default_factory=list)
     as_sent: dict[str, Trail] = field(default_factory=dict)   # placeholder parts, kept as sent
-    emptied: list[Trail] = field(default_factory=list)        # parts that end null
+    emptied: dict[str, Trail] = field(default_factory=dict)   # parts that end null
     flags: list[str] = field(default_factory=list)
     alternatives: list[dict[str, list[Word]]] = field(default_factory=list)
 
@@ -687,10 +687,10 @@ def _empty_name() -> dict[str, Any]:
             "alternatives": [], "placeholder": False, "valid": True}
 
 
-def _given_variants(given: list[Word], vocabulary: NameVocabulary) -> list[str]:
-    if not given or given[0].kind != "word":
+def _given_variants(given: list[Word], written: list[str], vocabulary: NameVocabulary) -> list[str]:
+    if given[0].kind != "word":
         return []
-    return [variant.capitalize() for variant in vocabulary.variants.get(given[0].key, ())]
+    return [variant.capitalize() for variant in vocabulary.variants.get(fold(written[0]), ())]
 
 
 def _alternative(parts: Mapping[str, list[Word]], vocabulary: NameVocabulary) -> dict[str, Any]:
@@ -714,7 +714,7 @@ def assemble(assembly: Assembly, name_trail: Trail, vocabulary: NameVocabulary) 
     for part, trail in assembly.as_sent.items():
         name[part] = trail.value
         trails.append(trail)
-    trails += assembly.emptied
+    trails += assembly.emptied.values()
     for word, trail in assembly.credentials:
         run_stages(trail, [word], "credentials", vocabulary)
         name["credentials"].append(trail.value)
@@ -734,7 +734,8 @@ def assemble(assembly: Assembly, name_trail: Trail, vocabulary: NameVocabulary) 
     name["alternatives"] = [_alternative(parts, vocabulary) for parts in assembly.alternatives]
     given = None if "given" in placeholder_parts else name["given"]
     if given:
-        name["given_variants"] = _given_variants(assembly.words["given"], vocabulary)
+        name["given_variants"] = _given_variants(assembly.words["given"], written["given"],
+                                                 vocabulary)
     family_written = [] if "family" in placeholder_parts or "family" not in written \
         else list(zip(family, written["family"]))
     keys = match_keys(given, family_written, vocabulary)
@@ -786,15 +787,17 @@ def clean_free_text(raw: Any, order: str, rules: RuleBook) -> Outcome:
     return assemble(assembly, Trail("name", raw, rules.reasons), vocabulary)
 
 
-def _move(source: Trail, words: list[Word], moving: list[Word], target: str,
-          reason: str) -> tuple[list[Word], Trail]:
-    """Move `moving` out of the part that `source` follows, onto a new trail
-    for `target` that starts from the same raw value."""
-    moved = source.fork(target)
+def _move(assembly: Assembly, part: str, moving: list[Word], target: str, field_name: str,
+          reason: str) -> Trail:
+    """Move `moving` out of `part` onto the trail of `target`: a new one that
+    starts from the part's raw value, or the trail of a part that was sent
+    but emptied, which goes on from there."""
+    source = assembly.trails[part]
+    moved = assembly.emptied.pop(target, None) or source.fork(field_name)
     moved.apply(" ".join(word.raw for word in moving), reason)
-    remaining = [word for word in words if word not in moving]
-    source.apply(" ".join(word.raw for word in remaining) or None, reason)
-    return remaining, moved
+    assembly.words[part] = [word for word in assembly.words[part] if word not in moving]
+    source.apply(" ".join(word.raw for word in assembly.words[part]) or None, reason)
+    return moved
 
 
 def _misplaced(words: list[Word], part: str, suffix_sent: bool,
@@ -812,8 +815,7 @@ def _misplaced(words: list[Word], part: str, suffix_sent: bool,
     return quoted + words[end:]
 
 
-_MOVES = (("nickname", "name.nickname", "names.nickname_moved"),
-          ("suffix", "name.suffix", "names.part_moved"))
+_MOVES = (("nickname", "names.nickname_moved"), ("suffix", "names.part_moved"))
 
 
 def clean_parts(raw: Mapping[str, Any], rules: RuleBook) -> Assembly:
@@ -827,7 +829,7 @@ def clean_parts(raw: Mapping[str, Any], rules: RuleBook) -> Assembly:
         trail = Trail(f"name.{part}", raw[part], rules.reasons)
         value = text.tidy(trail)
         if value is None:
-            assembly.emptied.append(trail)
+            assembly.emptied[part] = trail
             continue
         words = [word for segment in tokenize(value, vocabulary) for word in segment]
         too_long = len(value) > vocabulary.max_length or len(words) > vocabulary.max_words
@@ -839,24 +841,26 @@ def clean_parts(raw: Mapping[str, Any], rules: RuleBook) -> Assembly:
             continue
         assembly.words[part], assembly.trails[part] = words, trail
 
-    for part in ("given", "middle", "family", "suffix"):
+    # The suffix first: a suffix part that held only a credential can then take
+    # the Jr sent in the family name.
+    for part in ("suffix", "given", "middle", "family"):
         if part not in assembly.trails:
             continue
-        trail, words = assembly.trails[part], assembly.words[part]
-        misplaced = _misplaced(words, part, "suffix" in assembly.trails, vocabulary)
-        for kind, target, reason in _MOVES:
+        occupied = assembly.trails.keys() | assembly.as_sent.keys()
+        misplaced = _misplaced(assembly.words[part], part, "suffix" in occupied, vocabulary)
+        for kind, reason in _MOVES:
             moving = [word for word in misplaced if word.kind == kind]
-            if moving and target.split(".")[1] not in assembly.trails:
-                words, assembly.trails[kind] = _move(trail, words, moving, target, reason)
+            if moving and kind not in occupied:
+                assembly.trails[kind] = _move(assembly, part, moving, kind, f"name.{kind}", reason)
                 assembly.words[kind] = moving
         for word in (word for word in misplaced if word.kind == "credential"):
-            words, moved = _move(trail, words, [word],
-                                 f"name.credentials[{len(assembly.credentials)}]",
-                                 "names.part_moved")
-            assembly.credentials.append((word, moved))
-        assembly.words[part] = words
-        if not words:
-            assembly.emptied.append(assembly.trails.pop(part))
+            field_name = f"name.credentials[{len(assembly.credentials)}]"
+            assembly.credentials.append(
+                (word, _move(assembly, part, [word], "credentials", field_name,
+                             "names.part_moved")))
+        if not assembly.words[part]:
+            del assembly.words[part]
+            assembly.emptied[part] = assembly.trails.pop(part)
     if "family" in assembly.words:
         _mark_particles(assembly.words["family"], vocabulary)
     return assembly

@@ -145,16 +145,22 @@ def _read_surnames(context: LoadContext, name: str) -> dict[str, bool]:
     return surnames
 
 
+_INITIAL_LETTER = re.compile(r"(?:^|(?<=[.\- ]))([a-z])")
+
+
 def _read_variants(context: LoadContext, name: str) -> dict[str, tuple[str, ...]]:
-    """Each name's nicknames and the names it is a nickname of, one hop both ways."""
+    """Each name's nicknames and the names it is a nickname of, one hop both
+    ways, keyed by the folded name and written with capitals (K.C., Mary-Ann)."""
     linked: dict[str, set[str]] = {}
     for number, row in enumerate(context.read_csv(name), start=1):
-        first, second = fold(row.get("name") or ""), fold(row.get("nickname") or "")
+        first, second = (row.get("name") or "").strip(), (row.get("nickname") or "").strip()
         if not first or not second:
             raise RulesError(f"names: {name} row {number} needs a name and a nickname")
-        linked.setdefault(first, set()).add(second)
-        linked.setdefault(second, set()).add(first)
-    return {key: tuple(sorted(others - {key})) for key, others in linked.items()}
+        for one, other in ((first, second), (second, first)):
+            linked.setdefault(fold(one), set()).add(
+                _INITIAL_LETTER.sub(lambda letter: letter[1].upper(), other.lower()))
+    return {key: tuple(sorted(variant for variant in others if fold(variant) != key))
+            for key, others in linked.items()}
 
 
 def _compile_groups(loaded: dict[str, Any], context: LoadContext) -> tuple[PlaceholderGroup, ...]:
@@ -687,10 +693,16 @@ def _empty_name() -> dict[str, Any]:
             "alternatives": [], "placeholder": False, "valid": True}
 
 
+def _written_particles(family: list[Word], written: list[str]) -> list[str]:
+    """The family name's particles as the name is written (van, Van, al)."""
+    return [form.split("-")[0] if word.hyphen_particle else form
+            for word, form in zip(family, written) if word.particle or word.hyphen_particle]
+
+
 def _given_variants(given: list[Word], written: list[str], vocabulary: NameVocabulary) -> list[str]:
-    if given[0].kind != "word":
+    if given[0].kind in ("initial", "number"):
         return []
-    return [variant.capitalize() for variant in vocabulary.variants.get(fold(written[0]), ())]
+    return list(vocabulary.variants.get(fold(written[0]), ()))
 
 
 def _alternative(parts: Mapping[str, list[Word]], vocabulary: NameVocabulary) -> dict[str, Any]:
@@ -723,8 +735,7 @@ def assemble(assembly: Assembly, name_trail: Trail, vocabulary: NameVocabulary) 
         name_trail.flag("names.credentials_found")
 
     family = assembly.words.get("family", [])
-    name["particles"] = " ".join(word.particle or word.hyphen_particle for word in family
-                                 if word.particle or word.hyphen_particle) or None
+    name["particles"] = " ".join(_written_particles(family, written.get("family", []))) or None
     codes, placeholder_parts = placeholder_marks(
         {part: assembly.words.get(part, []) for part in ("given", "middle", "family")}, vocabulary)
     placeholder_parts |= set(assembly.as_sent)

@@ -261,3 +261,8 @@ def test_a_particle_added_to_the_table_changes_behaviour_without_code(rules_copy
     rules = engine.load_rules(rules_copy)
     name = cleaner.clean({"name": "Tama ua Tane"}, rules=rules)["record"]["name"]
     assert name["family"] == "ua Tane" and name["particles"] == "ua"
+
+
+def test_variants_keep_the_datasets_spelling(clean):
+    assert "K.C." in name_of(clean, "CASEY QUILLFEATHER")["given_variants"]
+    assert {"Jr", "June"} <= set(name_of(clean, "Junior Quillfeather")["given_variants"])

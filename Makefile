@@ -7,7 +7,7 @@ PIP    := $(BIN)/python -m pip install --quiet --disable-pip-version-check -c co
 HOST   ?= 127.0.0.1
 PORT   ?= 8080
 
-.PHONY: run test install check-rules
+.PHONY: run test install check-rules bench
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -30,3 +30,6 @@ test: $(VENV)/.installed-test
 
 check-rules: $(VENV)/.installed-run
 	$(BIN)/cleaner check-rules
+
+bench: $(VENV)/.installed-test
+	$(BIN)/python bench/names.py

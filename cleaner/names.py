@@ -110,13 +110,13 @@ _NameRulesSchema = Schema.from_dict({
        for name in ("titles", "generational_suffixes", "credentials")},
     **string_lists("credentials_after_comma_only", "particles", "hyphenated_particles",
                    "surname_joiners",
-                   "family_first_surnames", "extra_given_names", "mac_surnames"),
+                   "family_first_surnames", "extra_given_names", "mac_surnames",
+                   "no_middle_names"),
     "surnames_table": fields.String(required=True),
     "nicknames_table": fields.String(required=True),
     "lookalikes": fields.Dict(keys=fields.String(validate=validate.Regexp(r"^\d$")),
                               values=fields.List(fields.String(validate=validate.Length(equal=1)),
                                                  validate=validate.Length(equal=2)), required=True),
-    "no_middle": fields.Dict(keys=fields.String(), values=fields.List(fields.String()), required=True),
     "placeholders": fields.Dict(required=True),
 })
 
@@ -204,7 +204,7 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> NameVocabulary:
         mac_names=_folded_map({name: name for name in loaded["mac_surnames"]}),
         lookalikes=MappingProxyType({digit: tuple(forms)
                                      for digit, forms in loaded["lookalikes"].items()}),
-        no_middle=frozenset(map(fold, loaded["no_middle"].get("words", []))),
+        no_middle=frozenset(map(fold, loaded["no_middle_names"])),
         fillers=frozenset(map(fold, placeholders["fillers"])),
         no_name_texts=frozenset(item.casefold() for item in placeholders["no_name_texts"]),
         groups=_compile_groups(placeholders, context))

@@ -73,6 +73,18 @@ def test_clean_one_record(api):
     assert body["keys"]["ssn"] == "219450172"
 
 
+def test_clean_a_name_in_free_text_and_in_parts(api):
+    body = api.clean({"name": 'QUILLFEATHER, ROWAN "RO" J JR, MD'}).get_json()
+    assert body["record"]["name"] | {"given_variants": []} == {
+        "prefix": None, "given": "Rowan", "middle": "J", "family": "Quillfeather", "suffix": "Jr",
+        "nickname": "Ro", "credentials": ["MD"], "particles": None, "given_variants": [],
+        "alternatives": [], "placeholder": False, "valid": True}
+    assert body["keys"]["family_soundex"] == "Q413"
+    parts = api.clean({"given": "maria", "family": "DE LA CRUZ", "name": "x"},
+                      name_order="FAMILY_FIRST").get_json()["record"]["name"]
+    assert (parts["family"], parts["particles"], parts["value"]) == ("de la Cruz", "de la", "x")
+
+
 def test_reasons_lists_every_code_with_its_source(api, rules):
     listed = api.call("GET", "/v1/reasons").get_json()["reasons"]
     assert {r["code"] for r in listed} == set(rules.reasons)
@@ -179,17 +191,20 @@ def test_environment_sets_the_default_options(monkeypatch):
 # A record of distinctive invented values: none may reach a log line or a problem body.
 SECRETS = {"ssn": "219-45-0172", "email": "zephyrine.quillfeather@clinic-mail.org",
            "sex": "Zorblax", "birth_date": "1931-07-19", "phone": "(217) 555-0188",
-           "mother_maiden_name": "Ravensworth"}
+           "mother_maiden_name": "Ravensworth", "name": "QUILLFEATHER, ZEPHYRINE \"ZEPH\" MD"}
 
 
 def _secret_fragments():
-    return [v for v in SECRETS.values()] + ["219450172", "Quillfeather", "5550188"]
+    return [v for v in SECRETS.values()] + ["219450172", "Quillfeather", "5550188", "Zephyrine",
+                                            "ZEPH", "Q413"]
 
 
 @pytest.mark.parametrize("body, content_type", [
     (json.dumps({"record": SECRETS}), "application/json"),
     (json.dumps({"record": SECRETS, "options": {"date_order": "Ravensworth"}}), "application/json"),
     (json.dumps({"record": {**SECRETS, "sex": ["Zorblax"]}}), "application/json"),
+    (json.dumps({"record": {**SECRETS, "given": ["Zephyrine"]}}), "application/json"),
+    (json.dumps({"record": SECRETS, "options": {"name_order": "Zephyrine"}}), "application/json"),
     (json.dumps({"record": SECRETS})[:-3], "application/json"),
     (json.dumps({"record": SECRETS}), "text/csv"),
     (json.dumps({"Ravensworth": SECRETS}), "application/json"),
@@ -221,13 +236,15 @@ json_values = st.recursive(
     | st.text(), lambda inner: st.lists(inner, max_size=4) | st.dictionaries(st.text(), inner,
                                                                              max_size=4),
     max_leaves=12)
-record_keys = st.sampled_from(["birth_date", "sex", "phone", "email", "ssn", "name", "other"])
+record_keys = st.sampled_from(["birth_date", "sex", "phone", "email", "ssn", "name", "given",
+                               "family", "suffix", "other"])
 
 
 @settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(record=st.dictionaries(record_keys, json_values, max_size=6) | json_values,
        options=st.none() | st.dictionaries(
-           st.sampled_from(["country", "date_order", "reference_date", "x"]), json_values,
+           st.sampled_from(["country", "date_order", "reference_date", "name_order", "x"]),
+           json_values,
            max_size=3))
 def test_any_json_body_gets_a_documented_answer_never_a_500(api, record, options):
     body = {"record": record} if options is None else {"record": record, "options": options}

@@ -232,9 +232,7 @@ def test_free_text_trails_replay_and_cleaning_is_deterministic(value, order):
 
 
 @settings(max_examples=200, deadline=None)
-@given(record=st.fixed_dictionaries({}, optional={part: texts for part in
-                                                  ("prefix", "given", "middle", "family",
-                                                   "suffix")}))
+@given(record=st.fixed_dictionaries({}, optional=dict.fromkeys(("prefix", "given", "middle", "family", "suffix"), texts)))
 def test_parts_trails_replay(record):
     assert_name_trails_replay(record, cleaner.clean(record, {"reference_date": "2026-12-02"}))
 

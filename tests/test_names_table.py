@@ -23,7 +23,7 @@ def test_name_case(clean, case):
     options = {"name_order": case["order"]} if "order" in case else {}
     body = clean(record, **options)
     name = body["record"]["name"]
-    expected = {part: None for part in NULL_BY_DEFAULT} | {"credentials": [], "placeholder": False}
+    expected = dict.fromkeys(NULL_BY_DEFAULT) | {"credentials": [], "placeholder": False}
     expected |= case["expect"]
     assert {key: name.get(key) for key in expected} == expected
     flags = {flag["code"] for flag in body["flags"] if flag["code"].startswith("names.")}

@@ -8,8 +8,11 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import cleaner
+from test_names import assert_name_trails_replay
 
 MESSY = {
+    "name": ["SMITH, WILLIAM J JR", 'William "Bill" Smith', "MARIA LOPEZ GARCIA", "BABY GIRL JONES",
+             "UNKNOWN", "WANG Xiaoming", "j0hn o'brien", "Dr. Jan van der Berg, MD", "", 12345],
     "birth_date": ["02/03/80", "1980-02-03", "3 de febrero de 1980", "Feb 3rd, 1980", "19800203",
                    "29221", 29221, "13/02/1980", "02/30/1980", "03/1980", "1980", " 2/3/25 ",
                    "1900-01-01", "2031-01-01", "not a date", ""],
@@ -42,6 +45,7 @@ def raw_inputs(record, body):
 
 
 def assert_replays(record, body):
+    assert_name_trails_replay(record, body)
     raws, phone_items = raw_inputs(record, body)
     finals = final_values(body)
     for field, final in finals.items():

@@ -15,6 +15,7 @@ knows a particular name.
 
 from __future__ import annotations
 
+import functools
 import re
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
@@ -57,9 +58,6 @@ class PlaceholderGroup:
     names: tuple[frozenset[str], ...]
     marks_given: bool            # newborn names: the given group gathers round the word
 
-    def marks(self, key: str) -> bool:
-        return key in self.words or (self.pattern is not None and self.pattern.search(key) is not None)
-
 
 @dataclass(frozen=True)
 class NameVocabulary:
@@ -86,9 +84,14 @@ class NameVocabulary:
     fillers: frozenset[str]
     no_name_texts: frozenset[str]
     groups: tuple[PlaceholderGroup, ...]
+    placeholder_words: Mapping[str, PlaceholderGroup]
 
     def placeholder_group(self, key: str) -> PlaceholderGroup | None:
-        return next((group for group in self.groups if group.marks(key)), None)
+        group = self.placeholder_words.get(key)
+        if group is None:
+            group = next((group for group in self.groups if group.pattern is not None
+                          and group.pattern.search(key)), None)
+        return group
 
 
 _WORD = validate.Regexp(r"^[^\s,]+$", error="must be one word")
@@ -126,6 +129,10 @@ _PlaceholdersSchema = Schema.from_dict({
 })
 
 
+# Intake data repeats its words (given names, common surnames), and folding
+# through unidecode is the dearest step of reading one; each distinct word is
+# folded once per process.
+@functools.lru_cache(maxsize=16384)
 def fold(word: str) -> str:
     """A word as the vocabulary lists it: ASCII, case folded, no periods or quotes."""
     return text.fold(word).replace(".", "").strip(_QUOTES)
@@ -187,6 +194,12 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> NameVocabulary:
                  for particle in loaded["particles"]}
     surnames = _read_surnames(context, loaded["surnames_table"])
     variants = _read_variants(context, loaded["nicknames_table"])
+    groups = _compile_groups(placeholders, context)
+    placeholder_words: dict[str, PlaceholderGroup] = {}
+    for group in groups:
+        for word in group.words:
+            if placeholder_words.setdefault(word, group) is not group:
+                raise RulesError(f"names: the placeholder word {word!r} is in two groups")
     return NameVocabulary(
         max_length=loaded["max_length"], max_words=loaded["max_words"],
         titles=_folded_map(loaded["titles"]),
@@ -207,7 +220,7 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> NameVocabulary:
         no_middle=frozenset(map(fold, loaded["no_middle_names"])),
         fillers=frozenset(map(fold, placeholders["fillers"])),
         no_name_texts=frozenset(item.casefold() for item in placeholders["no_name_texts"]),
-        groups=_compile_groups(placeholders, context))
+        groups=groups, placeholder_words=MappingProxyType(placeholder_words))
 
 
 # --- tokenize and classify -----------------------------------------------------
@@ -358,7 +371,8 @@ def _family_start_from_end(words: list[Word], vocabulary: NameVocabulary) -> int
 def _family_end_from_start(words: list[Word], vocabulary: NameVocabulary) -> int:
     """Where the family name ends when it opens the name: its particles, a word,
     and a joined second surname; the last word is never taken."""
-    end = _particle_at(words, 0, vocabulary) or 0
+    end = 0 if words[0].key in vocabulary.family_first_surnames \
+        else _particle_at(words, 0, vocabulary) or 0
     if end and not (end < len(words) - 1 and _can_follow_particle(words[end], vocabulary)):
         end = 0
     end += 1
@@ -484,6 +498,7 @@ def read_name(segments: list[list[Word]], order: str, vocabulary: NameVocabulary
     for word in reading.parts["family"]:
         # A family name in capitals among mixed-case words is a convention, not a spelling.
         word.restore_case = word.restore_case or (word.raw.isupper() and len(word.key) > 1)
+    _mark_particles(reading.parts["middle"], vocabulary)
     _mark_particles(reading.parts["family"], vocabulary)
     if sum(len(reading.parts[part]) for part in ("given", "middle", "family")) == 1:
         reading.flags.append("names.single_word")
@@ -608,7 +623,7 @@ def word_stages(word: Word, part: str, vocabulary: NameVocabulary) -> WordStages
     cased = unpunctuated
     if word.restore_case and word.kind != "number":
         cased = proper_case(unpunctuated, part, vocabulary)
-        if part == "family" and word.particle is not None:
+        if word.particle is not None:
             cased = word.particle
         elif part == "family" and word.hyphen_particle is not None:
             cased = word.hyphen_particle + cased[cased.index("-"):]

@@ -260,6 +260,8 @@ def tokenize(value: str, vocabulary: NameVocabulary) -> list[list[Word]]:
             segments.append([])
             continue
         raw = match[0]
+        if not any(ch.isalnum() for ch in raw):
+            continue  # a stray mark (".", "-", '""') carries no name
         key = fold(raw)
         segments[-1].append(Word(raw, key, _kind(raw, key, match["quoted"] is not None, vocabulary),
                                  restore))

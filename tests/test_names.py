@@ -228,13 +228,33 @@ def test_free_text_trails_replay_and_cleaning_is_deterministic(value, order):
     record = {"name": value}
     body = cleaner.clean(record, {"name_order": order, "reference_date": "2026-12-02"})
     assert_name_trails_replay(record, body)
+    assert_parts_are_tidy(record, body)
     assert cleaner.clean(record, {"name_order": order, "reference_date": "2026-12-02"}) == body
 
 
 @settings(max_examples=200, deadline=None)
 @given(record=st.fixed_dictionaries({}, optional=dict.fromkeys(("prefix", "given", "middle", "family", "suffix"), texts)))
 def test_parts_trails_replay(record):
-    assert_name_trails_replay(record, cleaner.clean(record, {"reference_date": "2026-12-02"}))
+    body = cleaner.clean(record, {"reference_date": "2026-12-02"})
+    assert_name_trails_replay(record, body)
+    assert_parts_are_tidy(record, body)
+
+
+def assert_parts_are_tidy(record, body):
+    """Every part formed is non-empty text without outer or double spaces; a
+    part that could not be cleaned is exactly what was sent."""
+    name = body["record"].get("name")
+    if not name:
+        return
+    formed = [name[part] for part in NAME_FIELDS] + name["credentials"]
+    for value in formed:
+        if value is not None and value not in record.values():
+            assert value and value == value.strip() and "  " not in value
+
+
+def test_stray_marks_are_no_name(clean):
+    assert parts(name_of(clean, "Rowan Quillfeather . -")) == {"given": "Rowan",
+                                                             "family": "Quillfeather"}
 
 
 # --- the rule tables ----------------------------------------------------------------------

@@ -106,27 +106,27 @@ _GroupSchema = Schema.from_dict({
     "part": fields.String(required=True, validate=validate.OneOf(("given", "word"))),
 })
 
+_PlaceholdersSchema = Schema.from_dict({
+    **string_lists("fillers", "no_name_texts"),
+    "groups": fields.List(fields.Nested(_GroupSchema), required=True),
+})
+
 _NameRulesSchema = Schema.from_dict({
     "max_length": fields.Integer(required=True, strict=True, validate=validate.Range(min=20)),
     "max_words": fields.Integer(required=True, strict=True, validate=validate.Range(min=4)),
     **{name: fields.Dict(keys=fields.String(validate=_WORD), values=fields.String(), required=True)
        for name in ("titles", "generational_suffixes", "credentials")},
     **string_lists("credentials_after_comma_only", "particles", "hyphenated_particles",
-                   "surname_joiners",
-                   "family_first_surnames", "extra_given_names", "mac_surnames",
-                   "no_middle_names"),
+                   "surname_joiners", "family_first_surnames", "extra_given_names",
+                   "mac_surnames", "no_middle_names"),
     "surnames_table": fields.String(required=True),
     "nicknames_table": fields.String(required=True),
     "lookalikes": fields.Dict(keys=fields.String(validate=validate.Regexp(r"^\d$")),
                               values=fields.List(fields.String(validate=validate.Length(equal=1)),
                                                  validate=validate.Length(equal=2)), required=True),
-    "placeholders": fields.Dict(required=True),
+    "placeholders": fields.Nested(_PlaceholdersSchema, required=True),
 })
 
-_PlaceholdersSchema = Schema.from_dict({
-    **string_lists("fillers", "no_name_texts"),
-    "groups": fields.List(fields.Nested(_GroupSchema), required=True),
-})
 
 
 # Intake data repeats its words (given names, common surnames), and folding
@@ -189,7 +189,7 @@ def _compile_groups(loaded: dict[str, Any], context: LoadContext) -> tuple[Place
 
 def compile_rules(data: dict[str, Any], context: LoadContext) -> NameVocabulary:
     loaded = context.validated(_NameRulesSchema(), data)
-    placeholders = context.validated(_PlaceholdersSchema(), loaded["placeholders"], " placeholders")
+    placeholders = loaded["placeholders"]
     particles = {tuple(fold(word) for word in particle.split()): particle
                  for particle in loaded["particles"]}
     surnames = _read_surnames(context, loaded["surnames_table"])
@@ -231,7 +231,7 @@ class Word:
     key: str                 # folded, for the vocabulary
     kind: str                # nickname, title, suffix, credential, initial, number, word
     restore_case: bool       # the value it came from was all upper or all lower case
-    particle: str | None = None   # written form, when it is a family name's particle
+    particle: str | None = None   # written form, when it is a particle (van, de la, bin)
     hyphen_particle: str | None = None   # written form of a particle joined by a hyphen (al-)
 
 

@@ -20,7 +20,7 @@ import re
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from types import MappingProxyType
-from typing import Any
+from typing import Any, NamedTuple
 
 import jellyfish
 from marshmallow import Schema, fields, validate
@@ -54,7 +54,7 @@ class PlaceholderGroup:
     code: str
     texts: frozenset[str]        # whole values, case folded
     words: frozenset[str]
-    pattern: re.Pattern[str] | None
+    pattern: str | None          # the group's patterns as one alternation
     names: tuple[frozenset[str], ...]
     marks_given: bool            # newborn names: the given group gathers round the word
 
@@ -85,12 +85,14 @@ class NameVocabulary:
     no_name_texts: frozenset[str]
     groups: tuple[PlaceholderGroup, ...]
     placeholder_words: Mapping[str, PlaceholderGroup]
+    placeholder_patterns: re.Pattern[str] | None   # every group's patterns, one named group each
 
     def placeholder_group(self, key: str) -> PlaceholderGroup | None:
         group = self.placeholder_words.get(key)
-        if group is None:
-            group = next((group for group in self.groups if group.pattern is not None
-                          and group.pattern.search(key)), None)
+        if group is None and self.placeholder_patterns is not None:
+            match = self.placeholder_patterns.search(key)
+            if match:
+                group = self.groups[int(match.lastgroup[1:])]
         return group
 
 
@@ -174,8 +176,10 @@ def _compile_groups(loaded: dict[str, Any], context: LoadContext) -> tuple[Place
     groups = []
     for entry in loaded["groups"]:
         context.require_codes([entry["code"]], "placeholders.groups")
+        pattern = "|".join(f"(?:{item})" for item in entry["patterns"]) or None
         try:
-            pattern = re.compile("|".join(entry["patterns"])) if entry["patterns"] else None
+            if pattern:
+                re.compile(pattern)
         except re.error as exc:
             raise RulesError(f"names: a placeholder pattern of {entry['code']} is invalid: {exc}") \
                 from None
@@ -220,7 +224,10 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> NameVocabulary:
         no_middle=frozenset(map(fold, loaded["no_middle_names"])),
         fillers=frozenset(map(fold, placeholders["fillers"])),
         no_name_texts=frozenset(item.casefold() for item in placeholders["no_name_texts"]),
-        groups=groups, placeholder_words=MappingProxyType(placeholder_words))
+        groups=groups, placeholder_words=MappingProxyType(placeholder_words),
+        placeholder_patterns=re.compile("|".join(
+            f"(?P<g{index}>{group.pattern})" for index, group in enumerate(groups)
+            if group.pattern)) if any(group.pattern for group in groups) else None)
 
 
 # --- tokenize and classify -----------------------------------------------------
@@ -231,6 +238,7 @@ class Word:
     key: str                 # folded, for the vocabulary
     kind: str                # nickname, title, suffix, credential, initial, number, word
     restore_case: bool       # the value it came from was all upper or all lower case
+    placeholder: PlaceholderGroup | None   # the placeholder group the word belongs to
     particle: str | None = None   # written form, when it is a particle (van, de la, bin)
     hyphen_particle: str | None = None   # written form of a particle joined by a hyphen (al-)
 
@@ -264,7 +272,7 @@ def tokenize(value: str, vocabulary: NameVocabulary) -> list[list[Word]]:
             continue  # a stray mark (".", "-", '""') carries no name
         key = fold(raw)
         segments[-1].append(Word(raw, key, _kind(raw, key, match["quoted"] is not None, vocabulary),
-                                 restore))
+                                 restore, vocabulary.placeholder_group(key)))
     return segments
 
 
@@ -392,9 +400,8 @@ def _is_given_name(word: Word, vocabulary: NameVocabulary) -> bool:
         and word.key not in vocabulary.surnames_not_given
 
 
-def _newborn_marker(word: Word, vocabulary: NameVocabulary) -> bool:
-    group = vocabulary.placeholder_group(word.key)
-    return group is not None and group.marks_given
+def _newborn_marker(word: Word) -> bool:
+    return word.placeholder is not None and word.placeholder.marks_given
 
 
 def _family_first_evidence(words: list[Word], vocabulary: NameVocabulary) -> bool:
@@ -408,17 +415,17 @@ def _family_first_evidence(words: list[Word], vocabulary: NameVocabulary) -> boo
         _is_given_name(second, vocabulary) or (
             len(words) > 2 and _is_surname_only(second, vocabulary)
             and _is_given_name(words[2], vocabulary)))
-    newborn_last = _newborn_marker(last, vocabulary) or (
-        len(words) > 2 and _newborn_marker(words[-2], vocabulary)
+    newborn_last = _newborn_marker(last) or (
+        len(words) > 2 and _newborn_marker(words[-2])
         and last.kind in ("initial", "number"))
     return bool(upper_first or family_first_surname or surname_before_given) or (
-        newborn_last and not _newborn_marker(first, vocabulary))
+        newborn_last and not _newborn_marker(first))
 
 
-def _given_and_middle(words: list[Word], vocabulary: NameVocabulary) -> tuple[list[Word], list[Word]]:
+def _given_and_middle(words: list[Word]) -> tuple[list[Word], list[Word]]:
     """The first word is the given name, unless newborn words gather the given
     group round them (Baby Girl, Judy Girl A, Twin B)."""
-    markers = [index for index, word in enumerate(words) if _newborn_marker(word, vocabulary)]
+    markers = [index for index, word in enumerate(words) if _newborn_marker(word)]
     if not markers:
         return words[:1], words[1:]
     end = markers[-1] + 1
@@ -444,7 +451,7 @@ def _assign(words: list[Word], family_first: bool, vocabulary: NameVocabulary,
     if infer_compound and start == len(words) - 1 >= 2 \
             and _is_surname_only(words[start - 1], vocabulary):
         start, compound = start - 1, True
-    given, middle = _given_and_middle(words[:start], vocabulary)
+    given, middle = _given_and_middle(words[:start])
     return {"given": given, "middle": middle, "family": words[start:]}, compound
 
 
@@ -477,7 +484,7 @@ def _read_comma_form(family: list[Word], rest: list[Word], reading: Reading,
     family = _take_tail(family, reading, vocabulary, keep=1, one_letter_suffix=False)
     rest = _take_titles(rest, reading)
     rest = _take_tail(rest, reading, vocabulary, keep=1, one_letter_suffix=False)
-    given, middle = _given_and_middle(rest, vocabulary)
+    given, middle = _given_and_middle(rest)
     reading.parts.update(given=given, middle=middle, family=family)
 
 
@@ -517,9 +524,8 @@ def _placeholder_only(value: str, words: list[Word], vocabulary: NameVocabulary)
     if code:
         return code
     for word in words:
-        group = vocabulary.placeholder_group(word.key)
-        if group is not None:
-            code = code or group.code
+        if word.placeholder is not None:
+            code = code or word.placeholder.code
         elif not (word.kind in ("number", "initial") or word.key in vocabulary.fillers
                   or not word.key):
             return None
@@ -543,11 +549,10 @@ def placeholder_marks(parts: Mapping[str, list[Word]], vocabulary: NameVocabular
     marked: set[str] = set()
     for part in ("given", "middle", "family"):
         for word in parts[part]:
-            group = vocabulary.placeholder_group(word.key)
-            if group is not None:
+            if word.placeholder is not None:
                 marked.add(part)
-                if group.code not in codes:
-                    codes.append(group.code)
+                if word.placeholder.code not in codes:
+                    codes.append(word.placeholder.code)
     return codes, marked
 
 
@@ -597,14 +602,18 @@ _STANDARD_FORMS = {"prefix": ("title", "titles", "names.title_standardised"),
                    "credentials": ("credential", "credentials", "names.credential_standardised")}
 
 
-@dataclass(frozen=True, slots=True)
-class WordStages:
-    """One word's text after each stage."""
+class WordStages(NamedTuple):
+    """One word's text after each stage, in the order the stages run."""
     split: str
     repaired: str
     unpunctuated: str
     cased: str
     standard: str
+
+
+# The reason recorded when a stage changes a word; the standard form's is the part's.
+_STAGE_REASONS = ("names.lookalikes_repaired", "names.punctuation_removed",
+                  "names.case_restored")
 
 
 def _unpunctuated(word: Word, raw: str) -> str:
@@ -632,22 +641,19 @@ def word_stages(word: Word, part: str, vocabulary: NameVocabulary) -> WordStages
     return WordStages(word.raw, repaired, unpunctuated, cased, cased)
 
 
-def _joined(stages: list[WordStages], stage: str) -> str:
-    return " ".join(getattr(step, stage) for step in stages)
-
-
 def run_stages(trail: Trail, words: list[Word], part: str,
                vocabulary: NameVocabulary) -> list[str]:
-    """Take a part's words through the stages, each recorded on the part's
-    trail; returns each word as finally written."""
+    """Take a part's words through the stages, recording on the part's trail
+    each stage that changes something; returns each word as finally written."""
     stages = [word_stages(word, part, vocabulary) for word in words]
-    trail.apply(_joined(stages, "repaired"), "names.lookalikes_repaired")
+    # The first reason: a part sent apart may hold commas or stray marks between its words.
+    reasons = ("names.punctuation_removed", *_STAGE_REASONS)
+    if part in _STANDARD_FORMS:
+        reasons += (_STANDARD_FORMS[part][2],)
+    for column, reason in zip(zip(*stages), reasons):
+        trail.apply(" ".join(column), reason)
     if any(step.repaired != step.split for step in stages):
         trail.flag("names.lookalikes")
-    trail.apply(_joined(stages, "unpunctuated"), "names.punctuation_removed")
-    trail.apply(_joined(stages, "cased"), "names.case_restored")
-    if part in _STANDARD_FORMS:
-        trail.apply(_joined(stages, "standard"), _STANDARD_FORMS[part][2])
     if any(word.kind == "word" and _NAME_WORD.match(step.repaired) is None
            for word, step in zip(words, stages)):
         trail.flag("names.unexpected_characters")

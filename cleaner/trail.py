@@ -50,9 +50,11 @@ class Trail:
         return reason
 
     def apply(self, new_value: Any, reason: str) -> Any:
-        """Move the field to `new_value`, recording `reason` if it differs."""
-        self._reason(reason, "change")
+        """Move the field to `new_value`, recording `reason` if it differs.
+        The code is checked when it is recorded; tests/test_reasons.py checks
+        statically that every code the package names is listed."""
         if new_value != self.value:
+            self._reason(reason, "change")
             self.changes.append({"field": self.field, "from": self.value, "to": new_value,
                                  "reason": reason})
             self.value = new_value

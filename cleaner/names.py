@@ -33,6 +33,7 @@ from cleaner.rules import LoadContext, RuleBook, RulesError, string_lists
 from cleaner.trail import Trail
 
 PARTS = ("prefix", "given", "middle", "family", "suffix")
+NAME_USES = ("usual", "official", "temp", "nickname", "anonymous", "old", "maiden")  # HL7 FHIR R4
 FAMILY_FIRST = "family_first"
 
 # A nickname is set apart by double quotes, curly quotes, brackets, or single
@@ -57,6 +58,7 @@ class PlaceholderGroup:
     pattern: str | None          # the group's patterns as one alternation
     names: tuple[frozenset[str], ...]
     marks_given: bool            # newborn names: the given group gathers round the word
+    use: str | None              # the HL7 FHIR NameUse of a name holding the group's words
 
 
 @dataclass(frozen=True)
@@ -87,6 +89,11 @@ class NameVocabulary:
     placeholder_words: Mapping[str, PlaceholderGroup]
     placeholder_patterns: re.Pattern[str] | None   # every group's patterns, one named group each
 
+    def use_of(self, codes: Iterable[str]) -> str | None:
+        """The FHIR NameUse the placeholder codes give a name, if any gives one."""
+        return next((group.use for code in codes for group in self.groups
+                     if group.code == code and group.use), None)
+
     def placeholder_group(self, key: str) -> PlaceholderGroup | None:
         group = self.placeholder_words.get(key)
         if group is None and self.placeholder_patterns is not None:
@@ -106,6 +113,7 @@ _GroupSchema = Schema.from_dict({
     "names": fields.List(fields.List(fields.String(validate=_WORD), validate=validate.Length(min=2)),
                          required=True),
     "part": fields.String(required=True, validate=validate.OneOf(("given", "word"))),
+    "use": fields.String(load_default=None, validate=validate.OneOf(NAME_USES)),
 })
 
 _PlaceholdersSchema = Schema.from_dict({
@@ -187,7 +195,7 @@ def _compile_groups(loaded: dict[str, Any], context: LoadContext) -> tuple[Place
             code=entry["code"], texts=frozenset(item.casefold() for item in entry["texts"]),
             words=frozenset(map(fold, entry["words"])), pattern=pattern,
             names=tuple(frozenset(map(fold, words)) for words in entry["names"]),
-            marks_given=entry["part"] == "given"))
+            marks_given=entry["part"] == "given", use=entry["use"]))
     return tuple(groups)
 
 
@@ -713,7 +721,7 @@ class Assembly:
 def _empty_name() -> dict[str, Any]:
     return {"prefix": None, "given": None, "middle": None, "family": None, "suffix": None,
             "nickname": None, "credentials": [], "particles": None, "given_variants": [],
-            "alternatives": [], "placeholder": False, "valid": True}
+            "alternatives": [], "use": None, "placeholder": False, "valid": True}
 
 
 def _written_particles(family: list[Word], written: list[str]) -> list[str]:
@@ -765,6 +773,7 @@ def assemble(assembly: Assembly, name_trail: Trail, vocabulary: NameVocabulary) 
     for code in [*codes, *assembly.flags]:
         name_trail.flag(code)
     name["placeholder"] = bool(codes or assembly.as_sent)
+    name["use"] = vocabulary.use_of(codes)
     name["alternatives"] = [_alternative(parts, vocabulary) for parts in assembly.alternatives]
     given = None if "given" in placeholder_parts else name["given"]
     if given:
@@ -778,10 +787,11 @@ def assemble(assembly: Assembly, name_trail: Trail, vocabulary: NameVocabulary) 
 
 # --- the two input forms ------------------------------------------------------------
 
-def _unparsed(trail: Trail, code: str) -> Outcome:
+def _unparsed(trail: Trail, code: str, vocabulary: NameVocabulary) -> Outcome:
     trail.flag(code)
     name = _empty_name()
-    name.update(value=trail.revert(), valid=False, placeholder=code != "names.unparsed")
+    name.update(value=trail.revert(), valid=False, placeholder=code != "names.unparsed",
+                use=vocabulary.use_of([code]))
     return Outcome(name, [trail])
 
 
@@ -799,13 +809,13 @@ def clean_free_text(raw: Any, order: str, rules: RuleBook) -> Outcome:
     if value is None:
         return Outcome(None, [trail])
     if len(value) > vocabulary.max_length:
-        return _unparsed(trail, "names.unparsed")
+        return _unparsed(trail, "names.unparsed", vocabulary)
     segments = tokenize(value, vocabulary)
     words = [word for segment in segments for word in segment]
     problem = "names.unparsed" if len(words) > vocabulary.max_words \
         else _missing_text(value, vocabulary) or _placeholder_only(value, words, vocabulary)
     if problem:
-        return _unparsed(trail, problem)
+        return _unparsed(trail, problem, vocabulary)
     reading = read_name(segments, order, vocabulary)
     assembly = Assembly(flags=reading.flags, alternatives=reading.alternatives)
     for part, part_words in [*reading.parts.items(), ("nickname", reading.nickname)]:

@@ -78,7 +78,7 @@ def test_clean_a_name_in_free_text_and_in_parts(api):
     assert body["record"]["name"] | {"given_variants": []} == {
         "prefix": None, "given": "Rowan", "middle": "J", "family": "Quillfeather", "suffix": "Jr",
         "nickname": "Ro", "credentials": ["MD"], "particles": None, "given_variants": [],
-        "alternatives": [], "placeholder": False, "valid": True}
+        "alternatives": [], "use": None, "placeholder": False, "valid": True}
     assert body["keys"]["family_soundex"] == "Q413"
     parts = api.clean({"given": "maria", "family": "DE LA CRUZ", "name": "x"},
                       name_order="FAMILY_FIRST").get_json()["record"]["name"]

@@ -284,3 +284,12 @@ def test_a_particle_added_to_the_table_changes_behaviour_without_code(rules_copy
 def test_variants_keep_the_datasets_spelling(clean):
     assert "K.C." in name_of(clean, "CASEY QUILLFEATHER")["given_variants"]
     assert {"Jr", "June"} <= set(name_of(clean, "Junior Quillfeather")["given_variants"])
+
+
+# Source: HL7 FHIR R4 NameUse: temp is for "temporary names assigned at birth or in
+# emergency situations" (datatypes.html#HumanName; tests/reference/fhir_name_use.csv).
+@pytest.mark.parametrize("value, use", [("BABY GIRL QUILLFEATHER", "temp"), ("UNKNOWN", "temp"),
+                                        ("DOE, JANE", "temp"), ("TEST PATIENT", None),
+                                        ("N/A", None), ("Rowan Quillfeather", None)])
+def test_temporary_names_have_the_fhir_use_temp(clean, value, use):
+    assert name_of(clean, value)["use"] == use

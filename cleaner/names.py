@@ -712,7 +712,7 @@ class Assembly:
     words: dict[str, list[Word]] = field(default_factory=dict)
     trails: dict[str, Trail] = field(default_factory=dict)
     credentials: list[tuple[Word, Trail]] = field(default_factory=list)
-    as_sent: dict[str, Trail] = field(default_factory=dict)   # placeholder parts, kept as sent
+    as_sent: dict[str, tuple[Trail, str]] = field(default_factory=dict)  # kept as sent, and why
     emptied: dict[str, Trail] = field(default_factory=dict)   # parts that end null
     flags: list[str] = field(default_factory=list)
     alternatives: list[dict[str, list[Word]]] = field(default_factory=list)
@@ -754,7 +754,7 @@ def assemble(assembly: Assembly, name_trail: Trail, vocabulary: NameVocabulary) 
             continue
         written[part] = run_stages(trail, words, part, vocabulary)
         name[part] = trail.value
-    for part, trail in assembly.as_sent.items():
+    for part, (trail, _) in assembly.as_sent.items():
         name[part] = trail.value
         trails.append(trail)
     trails += assembly.emptied.values()
@@ -769,10 +769,11 @@ def assemble(assembly: Assembly, name_trail: Trail, vocabulary: NameVocabulary) 
     name["particles"] = " ".join(_written_particles(family, written.get("family", []))) or None
     codes, placeholder_parts = placeholder_marks(
         {part: assembly.words.get(part, []) for part in ("given", "middle", "family")}, vocabulary)
-    placeholder_parts |= set(assembly.as_sent)
-    for code in [*codes, *assembly.flags]:
+    as_sent_codes = [code for _, code in assembly.as_sent.values()]
+    for code in [*codes, *as_sent_codes, *assembly.flags]:
         name_trail.flag(code)
-    name["placeholder"] = bool(codes or assembly.as_sent)
+    name["placeholder"] = bool(codes) or any(code != "names.unparsed" for code in as_sent_codes)
+    placeholder_parts |= set(assembly.as_sent)  # no keys from a value kept as sent
     name["use"] = vocabulary.use_of(codes)
     name["alternatives"] = [_alternative(parts, vocabulary) for parts in assembly.alternatives]
     given = None if "given" in placeholder_parts else name["given"]
@@ -880,8 +881,7 @@ def clean_parts(raw: Mapping[str, Any], rules: RuleBook) -> Assembly:
         code = "names.unparsed" if too_long else _missing_text(value, vocabulary)
         if code:
             trail.revert()
-            assembly.as_sent[part] = trail
-            assembly.flags.append(code)
+            assembly.as_sent[part] = trail, code
             continue
         assembly.words[part], assembly.trails[part] = words, trail
 

@@ -136,9 +136,11 @@ def test_a_value_too_long_to_be_a_name_comes_back_as_sent(clean, value):
 
 
 def test_a_part_too_long_to_be_a_name_comes_back_as_sent(clean):
-    body = clean({"family": "Quill" * 50})
-    assert body["record"]["name"]["family"] == "Quill" * 50
+    body = clean({"family": "Quill" * 50, "given": "Rowan"})
+    name = body["record"]["name"]
+    assert name["family"] == "Quill" * 50 and not name["placeholder"]
     assert field_codes(body, "name")[1] == ["names.unparsed"]
+    assert "family_folded" not in body["keys"] and body["keys"]["given_folded"] == "ROWAN"
 
 
 def test_symbols_in_a_name_are_kept_and_flagged(clean):

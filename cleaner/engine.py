@@ -9,7 +9,7 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
-from cleaner import dates, email, names, phones, sex, ssn, text
+from cleaner import addresses, dates, email, names, phones, sex, ssn, text
 from cleaner.fieldkind import FieldKind
 from cleaner.options import InvalidInput, Options, read_options
 from cleaner.rules import LoadContext, RuleBook, RulesError, default_directory, load
@@ -17,7 +17,7 @@ from cleaner.trail import Trail
 
 # The order of the response's `record` keys.
 KINDS: tuple[FieldKind, ...] = (names.KIND, dates.KIND, sex.KIND, phones.KIND, email.KIND,
-                                ssn.KIND)
+                                ssn.KIND, addresses.KIND)
 KNOWN_KEYS = frozenset(key for kind in KINDS for key in kind.input_keys)
 _SCALARS = (str, int, float)
 

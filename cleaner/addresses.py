@@ -45,6 +45,7 @@ _FRACTION = re.compile(r"^\d+/\d+$")
 _IDENTIFIER = re.compile(r"^(?:[A-Z0-9]+(?:-[A-Z0-9]+)?)$")
 _ZIP5, _ZIP4 = re.compile(r"^\d{5}$"), re.compile(r"^\d{4}$")
 _ZIP_PLUS4 = re.compile(r"^(\d{5})-?(\d{4})$")
+_ZIP_LIKE = re.compile(r"^\d{3,10}(?:-\d{1,5})?$")
 
 
 # --- vocabulary -----------------------------------------------------------------
@@ -337,8 +338,9 @@ def _read_street(words: list[str], vocabulary: AddressVocabulary) -> DeliveryLin
     if named is None:
         return None
     has_number = leading > 0
-    if not has_number and not any(token.role == "suffix" for token in named):
-        return None
+    if not has_number and (not any(token.role == "suffix" for token in named)
+                           or sum(token.role == "street" for token in named) > 2):
+        return None   # without a number, only a short name and a suffix make a street
     return DeliveryLine("street", tokens + named + units_before + units_after, has_number)
 
 
@@ -407,12 +409,17 @@ def _phrase_before(words: list[str], end: int, table: Mapping[tuple[str, ...], s
 
 
 def _zip_start(words: list[str], end: int) -> int | None:
-    if end >= 1 and (_ZIP_PLUS4.match(words[end - 1]) or _ZIP5.match(words[end - 1])
-                     or _ZIP4.match(words[end - 1])):
+    """Where the ZIP code closing `words[:end]` starts: a run of digits (and a
+    hyphen), well formed or not; clean_zip judges its shape."""
+    if end >= 1 and _ZIP_LIKE.match(words[end - 1]):
         if end >= 2 and _ZIP5.match(words[end - 2]) and _ZIP4.match(words[end - 1]):
             return end - 2
         return end - 1
     return None
+
+
+def _in_one_segment(segment_of: list[int], start: int | None, end: int) -> int | None:
+    return start if start is not None and segment_of[start] == segment_of[end - 1] else None
 
 
 def split_one_line(value: str, vocabulary: AddressVocabulary) -> Split:
@@ -423,13 +430,16 @@ def split_one_line(value: str, vocabulary: AddressVocabulary) -> Split:
     segment_of = [index for index, segment in enumerate(segments) for _ in segment]
     split = Split()
     end = len(words)
-    country = _phrase_before(words, end, vocabulary.countries, vocabulary.longest_country)
+    country = _in_one_segment(segment_of, _phrase_before(
+        words, end, vocabulary.countries, vocabulary.longest_country), end)
     if country is not None and _phrase_before(words, end, vocabulary.states,
                                               vocabulary.longest_state) is None:
         split.country, end = words[country:end], country
     zip_start = _zip_start(words, end)
     state_end = zip_start if zip_start is not None else end
-    state = _phrase_before(words, state_end, vocabulary.states, vocabulary.longest_state)
+    state = _in_one_segment(segment_of, _phrase_before(
+        words, state_end, vocabulary.states, vocabulary.longest_state), state_end) \
+        if state_end else None
     if state is not None and state > 0 and (
             zip_start is not None or segment_of[state] > 0
             or (len(words[:state]) >= 3 and any(word in vocabulary.suffixes
@@ -437,7 +447,8 @@ def split_one_line(value: str, vocabulary: AddressVocabulary) -> Split:
         split.state = words[state:state_end]
         split.postal_code = words[zip_start:end] if zip_start is not None else []
         end = state
-    elif zip_start is not None and zip_start > 0 and not _ZIP4.match(words[zip_start]):
+    elif zip_start is not None and zip_start > 0 and (
+            _ZIP5.match(words[zip_start]) or _ZIP_PLUS4.match("".join(words[zip_start:end]))):
         split.postal_code, end = words[zip_start:end], zip_start
     if end == len(words) - len(split.country) and not split.state:
         return _without_last_line(split, segments, words[:end], vocabulary)
@@ -470,18 +481,37 @@ def _split_without_commas(split: Split, words: list[str], vocabulary: AddressVoc
     direction word spelled out before the city (OAK ST EAST COBBLESTONE) is
     given to the city, flagged, with the other reading kept."""
     labels = _labels(words)
-    if labels is None or labels[-1] != "PlaceName":
+    if labels is not None and labels[-1] == "PlaceName":
+        start = len(labels)
+        while start > 1 and labels[start - 1] == "PlaceName":
+            start -= 1
+    else:
+        start = _closing_end(words, vocabulary)
+    if start is None or start >= len(words):
         split.delivery = words
         return
-    start = len(labels)
-    while start > 1 and labels[start - 1] == "PlaceName":
+    if _spelled_directional(words[start - 1], vocabulary) and start > 2:
         start -= 1
-    before = words[start - 1]
-    if labels[start - 1] == "StreetNamePostDirectional" and before in vocabulary.directionals \
-            and len(before) > 2:
-        split.alternatives.append((words[:start], words[start:]))
-        start -= 1
+    if _spelled_directional(words[start], vocabulary) and start + 1 < len(words):
+        split.alternatives.append((words[:start + 1], words[start + 1:]))
     split.delivery, split.city = words[:start], words[start:]
+
+
+def _spelled_directional(word: str, vocabulary: AddressVocabulary) -> bool:
+    return len(word) > 2 and word in vocabulary.directionals
+
+
+def _closing_end(words: list[str], vocabulary: AddressVocabulary) -> int | None:
+    """The longest delivery line at the start of `words` that ends in a suffix,
+    a unit or a box, with a city left after it."""
+    for end in range(len(words) - 1, 1, -1):
+        line = read_delivery_line(words[:end], vocabulary, military_context=False)
+        if line is not None and line.tokens[-1].role in _CLOSING_ROLES:
+            return end
+    return None
+
+
+_CLOSING_ROLES = ("suffix", "postdirectional", "unit", "unit_type", "box")
 
 
 def _labels(words: list[str]) -> list[str] | None:
@@ -535,7 +565,7 @@ def clean_zip(trail: Trail, value: str, state: str | None, vocabulary: AddressVo
         trail.flag("addresses.zip_leading_zero")
     else:
         trail.flag("addresses.zip_malformed")
-        trail.revert()
+        trail.revert(since="addresses.split_into_parts")
         return None, []
     digits = vocabulary.zip_first_digits.get(state or "")
     if digits and zip_code[0] not in digits:
@@ -547,7 +577,7 @@ def clean_state(trail: Trail, words: list[str], vocabulary: AddressVocabulary) -
     code = vocabulary.states.get(tuple(words))
     if code is None:
         trail.flag("addresses.state_unrecognised")
-        trail.revert()
+        trail.revert(since="addresses.split_into_parts")
         return None
     return trail.apply(code, "addresses.state_standardised")
 
@@ -559,6 +589,7 @@ class Assembly:
     """The parts' trails and what was read of them, from either input form."""
     trails: dict[str, Trail] = field(default_factory=dict)
     line: DeliveryLine | None = None
+    line2_units: list[Token] = field(default_factory=list)   # a unit sent in line2
     state: str | None = None
     zip_code: str | None = None
     kind: str | None = None
@@ -607,7 +638,9 @@ def assemble(assembly: Assembly, whole: Trail, country: str | None,
     line = assembly.line
     placeholder = "addresses.placeholder" in assembly.flags
     if line is not None:
-        address["kind"], address["components"] = line.kind, components(line)
+        address["kind"] = line.kind
+        address["components"] = components(DeliveryLine(line.kind,
+                                                         line.tokens + assembly.line2_units))
         if not line.has_number:
             assembly.flags.append("addresses.no_house_number")
         placeholder = placeholder or address["line1"] in vocabulary.placeholder_street_lines
@@ -630,18 +663,18 @@ def assemble(assembly: Assembly, whole: Trail, country: str | None,
 
 # --- the two input forms ------------------------------------------------------------
 
-def _kept_as_sent(trail: Trail, code: str, kind: str, country: str | None,
-                  written: str | None = None) -> Outcome:
-    """The whole value in line1, as sent (or as `written`), with the reason why."""
-    trail.revert()
+def _kept_whole(trail: Trail, raw: Any, rules: RuleBook, code: str, kind: str,
+               country: str | None, written: str | None = None) -> Outcome:
+    """The whole tidied value in line1 (or as `written`), with the reason why."""
     line1 = trail.fork("address.line1")
     if written is not None:
         line1.apply(written, "addresses.upper_cased")
     address = _empty_address()
     address.update(line1=line1.value, kind=kind, country=country,
                    placeholder=code == "addresses.placeholder", valid=kind == "non_us")
-    trail.flag(code)
-    return Outcome(address, [line1, trail])
+    flags = Trail("address", raw, rules.reasons)
+    flags.flag(code)
+    return Outcome(address, [line1, flags])
 
 
 def _country_code(words: list[str], vocabulary: AddressVocabulary) -> str | None:
@@ -655,19 +688,20 @@ def clean_one_line(raw: Any, options: Options, rules: RuleBook) -> Outcome:
     if value is None:
         return Outcome(None, [trail])
     if len(value) > vocabulary.max_length:
-        return _kept_as_sent(trail, "addresses.unparsed", "unparsed", None)
+        return _kept_whole(trail, raw, rules, "addresses.unparsed", "unparsed", options.country)
     normal = normalise(value)
     if normal.replace(",", "") in vocabulary.placeholder_texts:
-        return _kept_as_sent(trail, "addresses.placeholder", "unparsed", None, value.upper())
+        return _kept_whole(trail, raw, rules, "addresses.placeholder", "unparsed", options.country,
+                           value.upper())
     split = split_one_line(normal, vocabulary)
     country = _country_code(split.country, vocabulary) if split.country else options.country
     if country not in vocabulary.usps_countries and not (split.state and split.postal_code):
-        return _kept_as_sent(trail, "addresses.non_us", "non_us", country)
+        return _kept_whole(trail, raw, rules, "addresses.non_us", "non_us", country)
     state_code = vocabulary.states.get(tuple(split.state))
     line = read_delivery_line(split.delivery, vocabulary, military_context=(
         " ".join(split.city) in vocabulary.military_cities or state_code in vocabulary.military_states))
     if line is None:
-        return _kept_as_sent(trail, "addresses.unparsed", "unparsed", None)
+        return _kept_whole(trail, raw, rules, "addresses.unparsed", "unparsed", options.country)
 
     _normalise_trail(trail, value)
     assembly = Assembly(line=line, alternatives=[
@@ -759,7 +793,8 @@ def clean_parts(raw: Mapping[str, Any], options: Options, rules: RuleBook) -> Ou
     if "line2" in trails and raw.get("line2") is not None:
         words = trails["line2"].value.split()
         if words and _units_from(words, 0, vocabulary) == len(words):
-            standardise_line(trails["line2"], _unit_tokens(words, vocabulary))
+            assembly.line2_units = _unit_tokens(words, vocabulary)
+            standardise_line(trails["line2"], assembly.line2_units)
     outcome = assemble(assembly, whole, "US", vocabulary)
     outcome.trails[:0] = emptied
     return outcome

@@ -67,11 +67,15 @@ class Trail:
         self.flags.append({"field": self.field, "code": code, "severity": reason.severity,
                            "message": reason.description})
 
-    def revert(self) -> Any:
-        """Give the value back exactly as sent: for a value that cannot be cleaned."""
-        if self.changes:
-            self.value = self.changes[0]["from"]
-            self.changes.clear()
+    def revert(self, since: str | None = None) -> Any:
+        """Give the value back exactly as sent: for a value that cannot be
+        cleaned. With `since`, as it stood right after the last change of that
+        reason: a part split from a larger value goes back to its own text."""
+        kept = next((index + 1 for index in range(len(self.changes) - 1, -1, -1)
+                     if self.changes[index]["reason"] == since), 0) if since else 0
+        if len(self.changes) > kept:
+            self.value = self.changes[kept]["from"]
+            del self.changes[kept:]
         return self.value
 
     def fork(self, field: str) -> Trail:

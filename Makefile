@@ -32,4 +32,4 @@ check-rules: $(VENV)/.installed-run
 	$(BIN)/cleaner check-rules
 
 bench: $(VENV)/.installed-test
-	$(BIN)/python bench/names.py
+	$(BIN)/python bench/steps.py

@@ -40,3 +40,28 @@ def name(rng: random.Random) -> str:
 def names(count: int, seed: int = 20261202) -> list[str]:
     rng = random.Random(seed)
     return [name(rng) for _ in range(count)]
+
+
+NUMBERS = ["12", "45", "310", "1600", "123 1/2", "112-10", "Ten", "7"]
+STREETS = ["north elm street", "OAK ST", "Harbor Rd", "Quillfeather Lane", "PARK AVENUE",
+           "Old Mill Pkwy", "Kettleby Rd North", "S Brackwater Blvd", "Penwarden Ct"]
+UNITS = ["", "", "", "apt 4b", "APT #7", "Suite 200", "BLDG 3 RM 29", "#12", "Lot 4"]
+TOWNS = [("Springfield", "IL", "62704"), ("Cobblestone", "VA", "22401"),
+         ("East Fenmoor", "IN", "46201"), ("Dunmorrow", "TX", "75201"),
+         ("Ashland", "KY", "41101"), ("Brackwater", "Mass.", "2108")]
+ADDRESS_PLACEHOLDERS = ["HOMELESS", "UNKNOWN", "SAME", "PO Box 12, Springfield IL 62701",
+                        "RR 2 BOX 152, ASHLAND KY 41101", "PSC 1234 BOX 5678, APO AE 09012"]
+
+
+def address(rng: random.Random) -> str:
+    if rng.random() < 0.06:
+        return rng.choice(ADDRESS_PLACEHOLDERS)
+    town, state, zip_code = rng.choice(TOWNS)
+    street = " ".join(filter(None, [rng.choice(NUMBERS), rng.choice(STREETS), rng.choice(UNITS)]))
+    separator = ", " if rng.random() < 0.8 else " "
+    return _case(f"{street}{separator}{town}{separator}{state} {zip_code}", rng)
+
+
+def addresses(count: int, seed: int = 20261202) -> list[str]:
+    rng = random.Random(seed)
+    return [address(rng) for _ in range(count)]

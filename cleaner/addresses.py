@@ -68,6 +68,7 @@ class AddressVocabulary:
     number_words: Mapping[str, str]
     forms: Mapping[str, Mapping[tuple[str, ...], str]]
     military_cities: frozenset[str]
+    form_fillers: frozenset[str]
     military_states: frozenset[str]
     placeholder_texts: frozenset[str]
     placeholder_street_lines: frozenset[str]
@@ -85,7 +86,7 @@ _AddressRulesSchema = Schema.from_dict({
                                     values=fields.List(fields.String()), required=True),
     "forms": fields.Nested(Schema.from_dict(string_lists(
         "po_box", "rural_route", "highway_contract", "box", "military_units", "military_cities",
-        "general_delivery")), required=True),
+        "general_delivery", "fillers")), required=True),
     "placeholders": fields.Nested(Schema.from_dict(string_lists(
         "texts", "street_lines", "zips")), required=True),
 })
@@ -93,7 +94,7 @@ _AddressRulesSchema = Schema.from_dict({
 
 def normalise(value: str) -> str:
     """Upper case, accents folded, and Pub 28 punctuation; commas kept as separators."""
-    return punctuated(fold_accents(value.upper()))
+    return normalise_stages(value)[2]
 
 
 def fold_accents(value: str) -> str:
@@ -187,6 +188,7 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> AddressVocabula
             "military": {_words(item): item for item in forms["military_units"]},
             "general_delivery": _phrases(forms["general_delivery"], "GENERAL DELIVERY")}),
         military_cities=frozenset(forms["military_cities"]),
+        form_fillers=frozenset(forms["fillers"]),
         military_states=frozenset(military_states),
         placeholder_texts=frozenset(normalise(item) for item in loaded["placeholders"]["texts"]),
         placeholder_street_lines=frozenset(loaded["placeholders"]["street_lines"]),
@@ -242,7 +244,20 @@ def _boxed(words: list[str], start: int, vocabulary: AddressVocabulary) -> list[
 
 def _read_form(words: list[str], vocabulary: AddressVocabulary,
                military_context: bool) -> DeliveryLine | None:
-    """The delivery forms that are not streets (Pub 28 sections 225, 24 to 28)."""
+    """The delivery forms that are not streets (Pub 28 sections 225, 24 to 28),
+    read without the filler words (NO., #) that those lines drop."""
+    kept = [word for word in words if word not in vocabulary.form_fillers]
+    line = _read_form_words(kept, vocabulary, military_context) if kept else None
+    if line is None or len(kept) == len(words):
+        return line
+    tokens = iter(line.tokens)
+    line.tokens = [Token(word, "form", "") if word in vocabulary.form_fillers else next(tokens)
+                   for word in words]
+    return line
+
+
+def _read_form_words(words: list[str], vocabulary: AddressVocabulary,
+                     military_context: bool) -> DeliveryLine | None:
     forms = vocabulary.forms
     end = _phrase_at(words, 0, forms["general_delivery"])
     if end == len(words):
@@ -397,6 +412,7 @@ class Split:
     postal_code: list[str] = field(default_factory=list)
     country: list[str] = field(default_factory=list)
     alternatives: list[tuple[list[str], list[str]]] = field(default_factory=list)  # (delivery, city)
+    city_unknown: bool = False     # a last line without commas whose city could not be found
 
 
 def _phrase_before(words: list[str], end: int, table: Mapping[tuple[str, ...], str],
@@ -418,6 +434,10 @@ def _zip_start(words: list[str], end: int) -> int | None:
     return None
 
 
+# A state name this long may hold commas (ARMED FORCES EUROPE, THE MIDDLE EAST, AND CANADA).
+_NAME_WITH_COMMAS = 3
+
+
 def _in_one_segment(segment_of: list[int], start: int | None, end: int) -> int | None:
     return start if start is not None and segment_of[start] == segment_of[end - 1] else None
 
@@ -437,9 +457,10 @@ def split_one_line(value: str, vocabulary: AddressVocabulary) -> Split:
         split.country, end = words[country:end], country
     zip_start = _zip_start(words, end)
     state_end = zip_start if zip_start is not None else end
-    state = _in_one_segment(segment_of, _phrase_before(
-        words, state_end, vocabulary.states, vocabulary.longest_state), state_end) \
+    state = _phrase_before(words, state_end, vocabulary.states, vocabulary.longest_state) \
         if state_end else None
+    if state is not None and state_end - state < _NAME_WITH_COMMAS:
+        state = _in_one_segment(segment_of, state, state_end)
     if state is not None and state > 0 and (
             zip_start is not None or segment_of[state] > 0
             or (len(words[:state]) >= 3 and any(word in vocabulary.suffixes
@@ -461,7 +482,7 @@ def split_one_line(value: str, vocabulary: AddressVocabulary) -> Split:
             previous = segment_of.index(last_segment - 1)
             split.city, split.delivery = words[previous:first_of_last], words[:previous]
     else:
-        _split_without_commas(split, words[:end], vocabulary)
+        _split_without_commas(split, words[:len(words) - len(split.country)], end, vocabulary)
     return split
 
 
@@ -476,19 +497,25 @@ def _without_last_line(split: Split, segments: list[list[str]], words: list[str]
     return split
 
 
-def _split_without_commas(split: Split, words: list[str], vocabulary: AddressVocabulary) -> None:
-    """Where the street ends and the city begins, by usaddress's tagger. A
-    direction word spelled out before the city (OAK ST EAST COBBLESTONE) is
-    given to the city, flagged, with the other reading kept."""
-    labels = _labels(words)
-    if labels is not None and labels[-1] == "PlaceName":
-        start = len(labels)
+def _split_without_commas(split: Split, line: list[str], end: int,
+                          vocabulary: AddressVocabulary) -> None:
+    """Where the street ends and the city begins in `line[:end]`, by
+    usaddress's tagger over the whole line, else by our closing-element rule.
+    A direction word spelled out at the boundary (OAK ST EAST COBBLESTONE) is
+    given to the city, flagged, with the other reading kept; a city that
+    cannot be found is flagged, never silently left in the street line."""
+    words = line[:end]
+    labels = _labels(line)
+    if labels is not None and labels[end - 1] == "PlaceName":
+        start = end
         while start > 1 and labels[start - 1] == "PlaceName":
             start -= 1
     else:
-        start = _closing_end(words, vocabulary)
+        start = _closing_end(words, vocabulary, military_context=(
+            vocabulary.states.get(tuple(split.state)) in vocabulary.military_states))
     if start is None or start >= len(words):
         split.delivery = words
+        split.city_unknown = True
         return
     if _spelled_directional(words[start - 1], vocabulary) and start > 2:
         start -= 1
@@ -501,17 +528,18 @@ def _spelled_directional(word: str, vocabulary: AddressVocabulary) -> bool:
     return len(word) > 2 and word in vocabulary.directionals
 
 
-def _closing_end(words: list[str], vocabulary: AddressVocabulary) -> int | None:
+def _closing_end(words: list[str], vocabulary: AddressVocabulary,
+                 military_context: bool) -> int | None:
     """The longest delivery line at the start of `words` that ends in a suffix,
-    a unit or a box, with a city left after it."""
-    for end in range(len(words) - 1, 1, -1):
-        line = read_delivery_line(words[:end], vocabulary, military_context=False)
+    a unit, a box or a form (GENERAL DELIVERY), with a city left after it."""
+    for end in range(len(words) - 1, 0, -1):
+        line = read_delivery_line(words[:end], vocabulary, military_context)
         if line is not None and line.tokens[-1].role in _CLOSING_ROLES:
             return end
     return None
 
 
-_CLOSING_ROLES = ("suffix", "postdirectional", "unit", "unit_type", "box")
+_CLOSING_ROLES = ("suffix", "postdirectional", "unit", "unit_type", "box", "form")
 
 
 def _labels(words: list[str]) -> list[str] | None:
@@ -544,11 +572,22 @@ def standardise_line(trail: Trail, tokens: list[Token]) -> None:
         trail.apply(" ".join(word for word in written if word), reason)
 
 
-def _normalise_trail(trail: Trail, value: str) -> str:
+def normalise_stages(value: str) -> tuple[str, str, str]:
+    """The value upper-cased, then with accents folded, then punctuated."""
+    upper = value.upper()
+    folded = fold_accents(upper)
+    return upper, folded, punctuated(folded)
+
+
+_NORMALISING = ("addresses.upper_cased", "addresses.diacritics_folded",
+                "addresses.punctuation_removed")
+
+
+def record_normalising(trail: Trail, stages: tuple[str, str, str]) -> str:
     """Upper case, accents and punctuation, each a change of its own."""
-    upper = trail.apply(value.upper(), "addresses.upper_cased")
-    folded = trail.apply(fold_accents(upper), "addresses.diacritics_folded")
-    return trail.apply(punctuated(folded), "addresses.punctuation_removed")
+    for stage, reason in zip(stages, _NORMALISING):
+        trail.apply(stage, reason)
+    return trail.value
 
 
 def clean_zip(trail: Trail, value: str, state: str | None, vocabulary: AddressVocabulary
@@ -590,6 +629,7 @@ class Assembly:
     trails: dict[str, Trail] = field(default_factory=dict)
     line: DeliveryLine | None = None
     line2_units: list[Token] = field(default_factory=list)   # a unit sent in line2
+    emptied: dict[str, Trail] = field(default_factory=dict)  # parts sent blank
     state: str | None = None
     zip_code: str | None = None
     kind: str | None = None
@@ -609,7 +649,7 @@ def _move_units(assembly: Assembly) -> None:
     units = [token for token in line.tokens if token.is_unit]
     if not units or "line2" in assembly.trails:
         return
-    moved = line1.fork("address.line2")
+    moved = assembly.emptied.pop("line2", None) or line1.fork("address.line2")
     moved.apply(" ".join(token.standard for token in units if token.standard), "addresses.unit_moved")
     line1.apply(" ".join(token.standard for token in line.tokens
                          if token.standard and not token.is_unit), "addresses.unit_moved")
@@ -658,7 +698,7 @@ def assemble(assembly: Assembly, whole: Trail, country: str | None,
         street_key = _street_key(line) if line else None
         if street_key:
             keys["street_key"] = street_key
-    return Outcome(address, [*assembly.trails.values(), whole], keys)
+    return Outcome(address, [*assembly.emptied.values(), *assembly.trails.values(), whole], keys)
 
 
 # --- the two input forms ------------------------------------------------------------
@@ -689,7 +729,8 @@ def clean_one_line(raw: Any, options: Options, rules: RuleBook) -> Outcome:
         return Outcome(None, [trail])
     if len(value) > vocabulary.max_length:
         return _kept_whole(trail, raw, rules, "addresses.unparsed", "unparsed", options.country)
-    normal = normalise(value)
+    stages = normalise_stages(value)
+    normal = stages[2]
     if normal.replace(",", "") in vocabulary.placeholder_texts:
         return _kept_whole(trail, raw, rules, "addresses.placeholder", "unparsed", options.country,
                            value.upper())
@@ -703,11 +744,11 @@ def clean_one_line(raw: Any, options: Options, rules: RuleBook) -> Outcome:
     if line is None:
         return _kept_whole(trail, raw, rules, "addresses.unparsed", "unparsed", options.country)
 
-    _normalise_trail(trail, value)
+    record_normalising(trail, stages)
     assembly = Assembly(line=line, alternatives=[
         {"line1": " ".join(_standard_words(delivery, vocabulary, state_code)),
          "city": " ".join(city)} for delivery, city in split.alternatives])
-    if split.alternatives:
+    if split.alternatives or split.city_unknown:
         assembly.flags.append("addresses.city_boundary_ambiguous")
     for part, words in (("line1", split.delivery), ("city", split.city), ("state", split.state),
                         ("postal_code", split.postal_code), ("country", split.country)):
@@ -744,7 +785,6 @@ def _clean_last_line(assembly: Assembly, vocabulary: AddressVocabulary) -> None:
 def clean_parts(raw: Mapping[str, Any], options: Options, rules: RuleBook) -> Outcome:
     vocabulary: AddressVocabulary = rules["addresses"]
     assembly = Assembly()
-    emptied: list[Trail] = []
     for part in PARTS:
         if raw.get(part) is None:
             continue
@@ -755,7 +795,7 @@ def clean_parts(raw: Mapping[str, Any], options: Options, rules: RuleBook) -> Ou
             trail.apply(options.country, "addresses.country_defaulted")
             assembly.trails[part] = trail
         else:
-            emptied.append(trail)
+            assembly.emptied[part] = trail
     trails = assembly.trails
     whole = Trail("address", None, rules.reasons)
     country = options.country
@@ -769,10 +809,10 @@ def clean_parts(raw: Mapping[str, Any], options: Options, rules: RuleBook) -> Ou
         if "country" in trails and country != trails["country"].value and len(country) == 2:
             address["country"] = trails["country"].apply(country, "addresses.country_standardised")
         whole.flag("addresses.non_us")
-        return Outcome(address, [*trails.values(), *emptied, whole])
+        return Outcome(address, [*trails.values(), *assembly.emptied.values(), whole])
 
     for trail in trails.values():
-        _normalise_trail(trail, str(trail.value).replace(",", " ").strip())
+        record_normalising(trail, normalise_stages(str(trail.value).replace(",", " ").strip()))
     _clean_last_line(assembly, vocabulary)
     city = trails["city"].value if "city" in trails else ""
     if "line1" in trails:
@@ -795,9 +835,7 @@ def clean_parts(raw: Mapping[str, Any], options: Options, rules: RuleBook) -> Ou
         if words and _units_from(words, 0, vocabulary) == len(words):
             assembly.line2_units = _unit_tokens(words, vocabulary)
             standardise_line(trails["line2"], assembly.line2_units)
-    outcome = assemble(assembly, whole, "US", vocabulary)
-    outcome.trails[:0] = emptied
-    return outcome
+    return assemble(assembly, whole, "US", vocabulary)
 
 
 def clean_address(raw: Any, options: Options, rules: RuleBook) -> Outcome:

@@ -1,0 +1,65 @@
+"""Micro-benchmark of the field steps that stand on a parsing library: each
+cleaner step against the bare library call, on the same seeded corpus of
+invented values. Prints one table; run with `make bench`."""
+
+from __future__ import annotations
+
+import sys
+import time
+from collections.abc import Callable
+from pathlib import Path
+
+import usaddress
+from nameparser import HumanName
+
+sys.path.insert(0, str(Path(__file__).parent))
+import corpus  # noqa: E402
+
+import cleaner  # noqa: E402
+from cleaner.addresses import clean_address  # noqa: E402
+from cleaner.engine import default_rules  # noqa: E402
+from cleaner.names import clean_name  # noqa: E402
+
+RECORDS = 20_000
+ROUNDS = 5
+
+
+def per_value_us(run: Callable, values: list) -> float:
+    """The best over rounds of the mean time per value, in microseconds: the
+    least disturbed round, as timeit reports."""
+    timings = []
+    for _ in range(ROUNDS):
+        start = time.perf_counter()
+        for value in values:
+            run(value)
+        timings.append((time.perf_counter() - start) / len(values) * 1e6)
+    return min(timings)
+
+
+def bare_usaddress(value: str) -> None:
+    try:
+        usaddress.tag(value)
+    except usaddress.RepeatedLabelError:
+        pass
+
+
+def main() -> None:
+    rules = default_rules()
+    options = cleaner.Options()
+    steps = [
+        ("name", corpus.names(RECORDS), "nameparser HumanName(text)", HumanName,
+         lambda value: clean_name(value, options, rules)),
+        ("address", corpus.addresses(RECORDS), "usaddress.tag(text)", bare_usaddress,
+         lambda value: clean_address(value, options, rules)),
+    ]
+    print(f"field steps, {RECORDS} invented values each, best of {ROUNDS} rounds, one core")
+    print(f"{'step':8} {'pipeline':34} {'µs/value':>9} {'values/s':>9} {'vs bare':>8}")
+    for field, values, bare_label, bare, ours in steps:
+        bare_us, ours_us = per_value_us(bare, values), per_value_us(ours, values)
+        distinct = len(set(values))
+        for label, micros in ((bare_label, bare_us), (f"cleaner ({distinct} distinct)", ours_us)):
+            print(f"{field:8} {label:34} {micros:9.1f} {1e6 / micros:9.0f} {bare_us / micros:7.2f}x")
+
+
+if __name__ == "__main__":
+    main()

@@ -70,7 +70,11 @@ class AddressVocabulary:
     military_cities: frozenset[str]
     form_fillers: frozenset[str]
     military_states: frozenset[str]
-    placeholder_texts: frozenset[str]
+    placeholder_texts: frozenset[str]      # as typed, upper case, and as normalised
+
+    def is_placeholder(self, value: str) -> bool:
+        return value.upper() in self.placeholder_texts or (
+            normalise(value).replace(",", "") or None) in self.placeholder_texts
     placeholder_street_lines: frozenset[str]
     placeholder_zips: frozenset[str]
 
@@ -190,7 +194,8 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> AddressVocabula
         military_cities=frozenset(forms["military_cities"]),
         form_fillers=frozenset(forms["fillers"]),
         military_states=frozenset(military_states),
-        placeholder_texts=frozenset(normalise(item) for item in loaded["placeholders"]["texts"]),
+        placeholder_texts=frozenset(form for item in loaded["placeholders"]["texts"]
+                                    for form in (item.upper(), normalise(item)) if form),
         placeholder_street_lines=frozenset(loaded["placeholders"]["street_lines"]),
         placeholder_zips=frozenset(loaded["placeholders"]["zips"]))
 
@@ -630,6 +635,7 @@ class Assembly:
     line: DeliveryLine | None = None
     line2_units: list[Token] = field(default_factory=list)   # a unit sent in line2
     emptied: dict[str, Trail] = field(default_factory=dict)  # parts sent blank
+    as_sent: dict[str, Trail] = field(default_factory=dict)  # placeholders and unreadable parts
     state: str | None = None
     zip_code: str | None = None
     kind: str | None = None
@@ -672,7 +678,7 @@ def _street_key(line: DeliveryLine) -> str | None:
 def assemble(assembly: Assembly, whole: Trail, country: str | None,
              vocabulary: AddressVocabulary) -> Outcome:
     address = _empty_address()
-    for part, trail in assembly.trails.items():
+    for part, trail in [*assembly.trails.items(), *assembly.as_sent.items()]:
         address[part] = trail.value
     address["country"] = address["country"] or country
     line = assembly.line
@@ -698,7 +704,8 @@ def assemble(assembly: Assembly, whole: Trail, country: str | None,
         street_key = _street_key(line) if line else None
         if street_key:
             keys["street_key"] = street_key
-    return Outcome(address, [*assembly.emptied.values(), *assembly.trails.values(), whole], keys)
+    return Outcome(address, [*assembly.emptied.values(), *assembly.trails.values(),
+                             *assembly.as_sent.values(), whole], keys)
 
 
 # --- the two input forms ------------------------------------------------------------
@@ -731,7 +738,7 @@ def clean_one_line(raw: Any, options: Options, rules: RuleBook) -> Outcome:
         return _kept_whole(trail, raw, rules, "addresses.unparsed", "unparsed", options.country)
     stages = normalise_stages(value)
     normal = stages[2]
-    if normal.replace(",", "") in vocabulary.placeholder_texts:
+    if vocabulary.is_placeholder(value):
         return _kept_whole(trail, raw, rules, "addresses.placeholder", "unparsed", options.country,
                            value.upper())
     split = split_one_line(normal, vocabulary)
@@ -811,25 +818,32 @@ def clean_parts(raw: Mapping[str, Any], options: Options, rules: RuleBook) -> Ou
         whole.flag("addresses.non_us")
         return Outcome(address, [*trails.values(), *assembly.emptied.values(), whole])
 
-    for trail in trails.values():
-        record_normalising(trail, normalise_stages(str(trail.value).replace(",", " ").strip()))
+    for part, trail in list(trails.items()):
+        sent = str(trail.value)
+        if vocabulary.is_placeholder(sent):
+            assembly.flags.append("addresses.placeholder")
+            assembly.kind = "unparsed" if part == "line1" else assembly.kind
+            trail.apply(sent.upper(), "addresses.upper_cased")
+            del trails[part]
+            assembly.as_sent[part] = trail
+        elif not record_normalising(trail, normalise_stages(sent.replace(",", " ").strip())):
+            trail.revert()   # nothing but marks: kept as sent
+            assembly.flags.append("addresses.unparsed")
+            del trails[part]
+            assembly.as_sent[part] = trail
     _clean_last_line(assembly, vocabulary)
     city = trails["city"].value if "city" in trails else ""
     if "line1" in trails:
         line1 = trails["line1"]
-        if line1.value in vocabulary.placeholder_texts:
+        assembly.line = read_delivery_line(line1.value.split(), vocabulary, military_context=(
+            city in vocabulary.military_cities or assembly.state in vocabulary.military_states))
+        if assembly.line is None:
+            line1.revert()
             assembly.kind = "unparsed"
-            assembly.flags.append("addresses.placeholder")
+            assembly.flags.append("addresses.unparsed")
         else:
-            assembly.line = read_delivery_line(line1.value.split(), vocabulary, military_context=(
-                city in vocabulary.military_cities or assembly.state in vocabulary.military_states))
-            if assembly.line is None:
-                line1.revert()
-                assembly.kind = "unparsed"
-                assembly.flags.append("addresses.unparsed")
-            else:
-                standardise_line(line1, assembly.line.tokens)
-                _move_units(assembly)
+            standardise_line(line1, assembly.line.tokens)
+            _move_units(assembly)
     if "line2" in trails and raw.get("line2") is not None:
         words = trails["line2"].value.split()
         if words and _units_from(words, 0, vocabulary) == len(words):

@@ -67,6 +67,14 @@ def field_codes(body, field):
             [f["code"] for f in body["flags"] if f["field"] == field])
 
 
+def assert_formed_text_is_tidy(values, record):
+    """Every value the service formed is non-empty text without outer or
+    double spaces; a value that could not be cleaned is exactly what was sent."""
+    for value in values:
+        if value is not None and value not in record.values():
+            assert value and value == value.strip() and "  " not in value, value
+
+
 def today() -> dt.date:
     return dt.date.fromisoformat(REFERENCE_DATE)
 

@@ -13,7 +13,7 @@ from hypothesis import strategies as st
 import cleaner
 from cleaner import engine
 from cleaner.rules import RulesError
-from conftest import edit_rules, field_codes
+from conftest import assert_formed_text_is_tidy, edit_rules, field_codes
 
 LAST_LINE = ", SPRINGFIELD, IL 62704"
 
@@ -201,13 +201,29 @@ def test_one_line_trails_replay_and_cleaning_is_deterministic(value, country):
     record = {"address": value}
     body = cleaner.clean(record, {"country": country})
     assert_address_trails_replay(record, body)
+    assert_address_is_tidy(record, body)
     assert cleaner.clean(record, {"country": country}) == body
 
 
 @settings(max_examples=200, deadline=None)
 @given(record=st.fixed_dictionaries({}, optional=dict.fromkeys(ADDRESS_FIELDS, texts)))
 def test_parts_trails_replay(record):
-    assert_address_trails_replay(record, cleaner.clean(record))
+    body = cleaner.clean(record)
+    assert_address_trails_replay(record, body)
+    assert_address_is_tidy(record, body)
+
+
+def assert_address_is_tidy(record, body):
+    address = body["record"].get("address")
+    if address and address["kind"] != "non_us":
+        assert_formed_text_is_tidy([address[part] for part in ADDRESS_FIELDS[:-1]]
+                                   + list(address["components"].values()), record)
+
+
+def test_a_part_of_nothing_but_marks_comes_back_as_sent(clean):
+    body = clean({"line1": "12 Elm St", "city": ":"})
+    assert body["record"]["address"]["city"] == ":"
+    assert field_codes(body, "address")[1] == ["addresses.unparsed"]
 
 
 # --- the rule tables ----------------------------------------------------------------

@@ -85,6 +85,18 @@ def test_clean_a_name_in_free_text_and_in_parts(api):
     assert (parts["family"], parts["particles"], parts["value"]) == ("de la Cruz", "de la", "x")
 
 
+def test_clean_an_address_as_the_contract_shows_it(api):
+    body = api.clean({"address": "12 north elm street apt 4b, springfield il 62704"}).get_json()
+    assert body["record"]["address"] == {
+        "line1": "12 N ELM ST", "line2": "APT 4B", "city": "SPRINGFIELD", "state": "IL",
+        "postal_code": "62704", "country": "US", "kind": "street", "alternatives": [],
+        "components": {"number": "12", "predirectional": "N", "street": "ELM", "suffix": "ST",
+                       "unit_type": "APT", "unit": "4B"}, "placeholder": False, "valid": True}
+    assert body["keys"]["zip5"] == "62704" and body["keys"]["street_key"] == "12ELM"
+    foreign = api.clean({"line1": "Av. Juárez 12", "country": "Mexico"}).get_json()
+    assert foreign["record"]["address"]["kind"] == "non_us"
+
+
 def test_reasons_lists_every_code_with_its_source(api, rules):
     listed = api.call("GET", "/v1/reasons").get_json()["reasons"]
     assert {r["code"] for r in listed} == set(rules.reasons)
@@ -191,12 +203,13 @@ def test_environment_sets_the_default_options(monkeypatch):
 # A record of distinctive invented values: none may reach a log line or a problem body.
 SECRETS = {"ssn": "219-45-0172", "email": "zephyrine.quillfeather@clinic-mail.org",
            "sex": "Zorblax", "birth_date": "1931-07-19", "phone": "(217) 555-0188",
-           "mother_maiden_name": "Ravensworth", "name": "QUILLFEATHER, ZEPHYRINE \"ZEPH\" MD"}
+           "mother_maiden_name": "Ravensworth", "name": "QUILLFEATHER, ZEPHYRINE \"ZEPH\" MD",
+           "address": "77 Wexley Harbor Rd Bldg 3, Cobblestone, VA 22401"}
 
 
 def _secret_fragments():
     return [v for v in SECRETS.values()] + ["219450172", "Quillfeather", "5550188", "Zephyrine",
-                                            "ZEPH", "Q413"]
+                                            "ZEPH", "Q413", "WEXLEY", "22401", "COBBLESTONE"]
 
 
 @pytest.mark.parametrize("body, content_type", [
@@ -237,7 +250,8 @@ json_values = st.recursive(
                                                                              max_size=4),
     max_leaves=12)
 record_keys = st.sampled_from(["birth_date", "sex", "phone", "email", "ssn", "name", "given",
-                               "family", "suffix", "other"])
+                               "family", "suffix", "address", "line1", "city", "state",
+                               "postal_code", "country", "other"])
 
 
 @settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])

@@ -8,9 +8,13 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import cleaner
+from test_addresses import assert_address_trails_replay
 from test_names import assert_name_trails_replay
 
 MESSY = {
+    "address": ["12 north elm street apt 4b, springfield il 62704", "45 OAK ST EAST COBBLESTONE VA",
+                "POB 12, Springfield IL 62701", "HOMELESS", "12 Rue de la Paix, Paris, France",
+                "Ten Old Mill Pkwy, Springfield, Mass 2108", "", 123],
     "name": ["SMITH, WILLIAM J JR", 'William "Bill" Smith', "MARIA LOPEZ GARCIA", "BABY GIRL JONES",
              "UNKNOWN", "WANG Xiaoming", "j0hn o'brien", "Dr. Jan van der Berg, MD", "", 12345],
     "birth_date": ["02/03/80", "1980-02-03", "3 de febrero de 1980", "Feb 3rd, 1980", "19800203",
@@ -46,6 +50,7 @@ def raw_inputs(record, body):
 
 def assert_replays(record, body):
     assert_name_trails_replay(record, body)
+    assert_address_trails_replay(record, body)
     raws, phone_items = raw_inputs(record, body)
     finals = final_values(body)
     for field, final in finals.items():

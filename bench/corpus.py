@@ -48,7 +48,9 @@ STREETS = ["north elm street", "OAK ST", "Harbor Rd", "Quillfeather Lane", "PARK
 UNITS = ["", "", "", "apt 4b", "APT #7", "Suite 200", "BLDG 3 RM 29", "#12", "Lot 4"]
 TOWNS = [("Springfield", "IL", "62704"), ("Cobblestone", "VA", "22401"),
          ("East Fenmoor", "IN", "46201"), ("Dunmorrow", "TX", "75201"),
-         ("Ashland", "KY", "41101"), ("Brackwater", "Mass.", "2108")]
+         ("Ashland", "KY", "41101"), ("Brackwater", "Mass.", "2108"),
+         ("West Kettleby", "OH", "43001"), ("Park Ridge", "IL", "60068"),
+         ("Grand Junction", "CO", "81501"), ("North Penwarden", "NY", "12401")]
 ADDRESS_PLACEHOLDERS = ["HOMELESS", "UNKNOWN", "SAME", "PO Box 12, Springfield IL 62701",
                         "RR 2 BOX 152, ASHLAND KY 41101", "PSC 1234 BOX 5678, APO AE 09012"]
 
@@ -65,3 +67,15 @@ def address(rng: random.Random) -> str:
 def addresses(count: int, seed: int = 20261202) -> list[str]:
     rng = random.Random(seed)
     return [address(rng) for _ in range(count)]
+
+
+def lines_without_commas(count: int, seed: int = 20261203) -> list[tuple[str, str]]:
+    """(street, city, state and ZIP written on one line with no comma, the city)."""
+    rng = random.Random(seed)
+    lines = []
+    for _ in range(count):
+        town, state, zip_code = rng.choice(TOWNS)
+        street = " ".join(filter(None, [rng.choice(NUMBERS), rng.choice(STREETS),
+                                        rng.choice(UNITS)]))
+        lines.append((_case(f"{street} {town} {state} {zip_code}", rng), town.upper()))
+    return lines

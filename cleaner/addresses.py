@@ -510,23 +510,42 @@ def _split_without_commas(split: Split, line: list[str], end: int,
     given to the city, flagged, with the other reading kept; a city that
     cannot be found is flagged, never silently left in the street line."""
     words = line[:end]
+    military_context = vocabulary.states.get(tuple(split.state)) in vocabulary.military_states
     labels = _labels(line)
+    start = None
     if labels is not None and labels[end - 1] == "PlaceName":
         start = end
         while start > 1 and labels[start - 1] == "PlaceName":
             start -= 1
-    else:
-        start = _closing_end(words, vocabulary, military_context=(
-            vocabulary.states.get(tuple(split.state)) in vocabulary.military_states))
+        # The tagger's boundary stands only if what it leaves is a delivery line.
+        if read_delivery_line(words[:start], vocabulary, military_context) is None:
+            start = None
+    if start is None:
+        start = _closing_end(words, vocabulary, military_context)
     if start is None or start >= len(words):
         split.delivery = words
         split.city_unknown = True
         return
-    if _spelled_directional(words[start - 1], vocabulary) and start > 2:
-        start -= 1
-    if _spelled_directional(words[start], vocabulary) and start + 1 < len(words):
-        split.alternatives.append((words[:start + 1], words[start + 1:]))
+    units_end = _units_before_city(words, start, vocabulary)
+    if units_end > start:
+        start = units_end
+    else:
+        if _spelled_directional(words[start - 1], vocabulary) and start > 2:
+            start -= 1
+        if _spelled_directional(words[start], vocabulary) and start + 1 < len(words):
+            split.alternatives.append((words[:start + 1], words[start + 1:]))
     split.delivery, split.city = words[:start], words[start:]
+
+
+def _units_before_city(words: list[str], start: int, vocabulary: AddressVocabulary) -> int:
+    """Units never begin a city: where the city starts once any units at
+    `start` (and a direction word before them, the postdirectional) are
+    given back to the delivery line."""
+    at = start + 1 if words[start] in vocabulary.directionals else start
+    end = at
+    while (unit_end := _unit_group(words, end, vocabulary)) is not None and unit_end < len(words):
+        end = unit_end
+    return end if end > at else start
 
 
 def _spelled_directional(word: str, vocabulary: AddressVocabulary) -> bool:
@@ -535,16 +554,29 @@ def _spelled_directional(word: str, vocabulary: AddressVocabulary) -> bool:
 
 def _closing_end(words: list[str], vocabulary: AddressVocabulary,
                  military_context: bool) -> int | None:
-    """The longest delivery line at the start of `words` that ends in a suffix,
-    a unit, a box or a form (GENERAL DELIVERY), with a city left after it."""
-    for end in range(len(words) - 1, 0, -1):
+    """Where the delivery line ends: the shortest one at the start of `words`
+    that closes with a suffix, a box or a form (GENERAL DELIVERY), carried on
+    over units, an abbreviated postdirectional, and a second suffix word that
+    a plain word follows (COUNTRY CLUB RD | SPRINGFIELD, but PENWARDEN CT |
+    PARK RIDGE); a city must be left after it."""
+    for end in range(1, len(words)):
         line = read_delivery_line(words[:end], vocabulary, military_context)
-        if line is not None and line.tokens[-1].role in _CLOSING_ROLES:
-            return end
+        if line is None or line.tokens[-1].role not in _CLOSING_ROLES:
+            continue
+        while end < len(words) - 1:
+            unit_end = _unit_group(words, end, vocabulary)
+            if unit_end is not None and unit_end < len(words):
+                end = unit_end
+            elif (words[end] in vocabulary.directionals and len(words[end]) <= 2) or (
+                    words[end] in vocabulary.suffixes and words[end + 1] not in vocabulary.suffixes):
+                end += 1
+            else:
+                break
+        return end
     return None
 
 
-_CLOSING_ROLES = ("suffix", "postdirectional", "unit", "unit_type", "box", "form")
+_CLOSING_ROLES = ("suffix", "box", "form")
 
 
 def _labels(words: list[str]) -> list[str] | None:

@@ -1,11 +1,13 @@
-"""The `cleaner` command: run the service, or check a rules folder."""
+"""The `cleaner` command: run the service, clean a file, or check a rules folder."""
 
 from __future__ import annotations
 
 import argparse
+import contextlib
 import os
 import sys
 from collections.abc import Sequence
+from pathlib import Path
 
 from cleaner.config import Config
 from cleaner.engine import load_rules
@@ -55,6 +57,56 @@ def _check_rules(args: argparse.Namespace) -> int:
     return 0
 
 
+def _clean(args: argparse.Namespace) -> int:
+    from cleaner import filejob, report
+    from cleaner.options import InvalidInput, read_options
+
+    try:
+        fmt = filejob.detect_format(args.input, args.format)
+        explicit = dict(_mapping(item) for item in args.map)
+        options = read_options({key: value for key, value in (
+            ("country", args.country), ("date_order", args.date_order),
+            ("reference_date", args.reference_date), ("name_order", args.name_order))
+            if value is not None}, Config.from_env().default_options())
+        job = filejob.Job(options, os.environ.get("CLEANER_RULES_DIR"), explicit)
+        load_rules(job.rules_dir)
+    except (ValueError, RulesError) as exc:  # InvalidInput is a ValueError
+        detail = "; ".join(f"{pointer}: {message}" for pointer, message in exc.problems) \
+            if isinstance(exc, InvalidInput) else str(exc)
+        print(f"cleaner: {detail}", file=sys.stderr)
+        return 2
+    with _opened(args.input, "rb", sys.stdin.buffer) as source, \
+            _opened(args.output, "w", sys.stdout) as sink:
+        counting = filejob.CountingReader(source)
+        size = os.path.getsize(args.input) if args.input != "-" else None
+        progress = filejob.Progress(sys.stderr, size, lambda: counting.count)
+        try:
+            outcome = filejob.run(counting, sink, fmt, job, args.jobs, progress)
+        except InvalidInput as exc:
+            print("cleaner: " + "; ".join(f"{pointer}: {message}"
+                                          for pointer, message in exc.problems), file=sys.stderr)
+            return 2
+    if args.report:
+        Path(args.report).write_text(report.html(outcome, args.input), encoding="utf-8")
+    return 0
+
+
+def _mapping(item: str) -> tuple[str, str]:
+    key, equals, column = item.partition("=")
+    if not equals or not key or not column:
+        raise ValueError(f"--map takes FIELD=COLUMN, such as family=\"Last Name\", not {item!r}")
+    return key.strip(), column.strip()
+
+
+@contextlib.contextmanager
+def _opened(path: str, mode: str, standard):
+    if path == "-":
+        yield standard
+        return
+    with open(path, mode, **({} if "b" in mode else {"encoding": "utf-8", "newline": ""})) as handle:
+        yield handle
+
+
 def _at_least_one(text: str) -> int:
     number = int(text)
     if number < 1:
@@ -75,6 +127,23 @@ def parser() -> argparse.ArgumentParser:
     serve.add_argument("--timeout", type=_at_least_one, default=30,
                        help="seconds a worker may spend on one request before it is restarted")
     serve.set_defaults(run=_serve)
+
+    clean = commands.add_parser("clean", help="clean a CSV, NDJSON or JSON file of records")
+    clean.add_argument("input", help="the file to read (- for standard input)")
+    clean.add_argument("-o", "--output", required=True, help="the file to write (- for standard output)")
+    clean.add_argument("--format", choices=("csv", "ndjson", "json"),
+                       help="the kind of file (default: by the input's extension)")
+    clean.add_argument("--country", help="default region for phones and addresses (ISO 3166-1)")
+    clean.add_argument("--date-order", help="how numeric dates are read: MDY, DMY or YMD")
+    clean.add_argument("--reference-date", help="the date today means (ISO 8601)")
+    clean.add_argument("--name-order", help="given_first or family_first")
+    clean.add_argument("--map", action="append", default=[], metavar="FIELD=COLUMN",
+                       help="read a record key from this CSV column (repeatable)")
+    clean.add_argument("--jobs", type=_at_least_one, default=os.cpu_count() or 1,
+                       help="worker processes (default: one per core); output order is kept")
+    clean.add_argument("--report", metavar="FILE.html",
+                       help="also write a self-contained HTML data-quality report")
+    clean.set_defaults(run=_clean)
 
     check = commands.add_parser("check-rules", help="validate a rules folder and print its version")
     check.add_argument("--dir", default=None, help="rules folder (default: the embedded rules)")

@@ -14,6 +14,8 @@ MIB = 1024 * 1024
 @dataclass(frozen=True)
 class Config:
     max_body_bytes: int = MIB
+    max_batch_bytes: int = 64 * MIB
+    max_batch_records: int = 10_000
     rules_dir: str | None = None
     default_country: str = "US"
     default_date_order: str = "MDY"
@@ -34,8 +36,10 @@ class Config:
         return cls(**given).checked()
 
     def checked(self) -> Config:
-        if self.max_body_bytes < 1024:
-            raise ValueError("CLEANER_MAX_BODY_BYTES must be at least 1024")
+        if self.max_body_bytes < 1024 or self.max_batch_bytes < 1024:
+            raise ValueError("CLEANER_MAX_BODY_BYTES and CLEANER_MAX_BATCH_BYTES must be at least 1024")
+        if self.max_batch_records < 1:
+            raise ValueError("CLEANER_MAX_BATCH_RECORDS must be at least 1")
         if self.log_level.upper() not in ("DEBUG", "INFO", "WARNING", "ERROR"):
             raise ValueError("CLEANER_LOG_LEVEL must be DEBUG, INFO, WARNING or ERROR")
         self.default_options()

@@ -28,7 +28,9 @@ def _reasons_only(data: dict[str, Any], context: LoadContext) -> None:
 
 
 def load_rules(directory: Path | str | None = None) -> RuleBook:
-    compilers = {"text": text.compile_rules, "record": _reasons_only}
+    # The batch module reads records through this one, so it is imported here, not above.
+    from cleaner import batch
+    compilers = {"text": text.compile_rules, "record": _reasons_only, "batch": batch.compile_rules}
     compilers.update((kind.name, kind.compile_rules) for kind in KINDS)
     return load(Path(directory) if directory else default_directory(), compilers)
 

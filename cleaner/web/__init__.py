@@ -20,6 +20,8 @@ from cleaner.web import api, logs, meta, problems
 class Service:
     rules: RuleBook
     defaults: Options  # checked once at start-up
+    max_batch_bytes: int
+    max_batch_records: int
 
     def default_options(self) -> Options:
         """The configured defaults, with today as the reference date of this request."""
@@ -37,7 +39,9 @@ def create_app(config: Config | Mapping[str, Any] | None = None) -> Flask:
     app.json.sort_keys = False
     app.json.compact = True
     # Rules are read and checked here, once; a broken table stops start-up.
-    service = Service(rules=load_rules(config.rules_dir), defaults=config.default_options())
+    service = Service(rules=load_rules(config.rules_dir), defaults=config.default_options(),
+                      max_batch_bytes=config.max_batch_bytes,
+                      max_batch_records=config.max_batch_records)
     app.extensions["cleaner"] = service
     logs.configure(app, config.log_level)
     problems.register(app)

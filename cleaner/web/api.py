@@ -5,8 +5,9 @@ from __future__ import annotations
 import json
 from typing import Any
 
-from flask import Blueprint, current_app, g, jsonify, request
+from flask import Blueprint, Response, current_app, g, jsonify, request, stream_with_context
 
+from cleaner import batch
 from cleaner.engine import clean_record
 from cleaner.options import InvalidInput, read_options
 from cleaner.web.problems import RequestProblem
@@ -24,6 +25,10 @@ def read_json_body() -> Any:
     if request.mimetype != "application/json":
         raise RequestProblem(415, "unsupported-media-type", "Unsupported Media Type",
                              "Send the body as application/json.")
+    return _parsed_body()
+
+
+def _parsed_body() -> Any:
     try:
         return json.loads(request.get_data(cache=False), parse_constant=_reject_constant)
     except (ValueError, RecursionError):
@@ -52,6 +57,65 @@ def clean_one():
                           service.rules)
     g.counts = {"records": 1, "changes": len(result["changes"]), "flags": len(result["flags"])}
     return jsonify(result)
+
+
+_BATCH_MEDIA_TYPES = ("application/json", "text/csv", "application/x-ndjson")
+_QUERY_OPTIONS = ("country", "date_order", "reference_date", "name_order")
+_MAP_PREFIX = "map."
+
+
+def _query_options_and_map() -> tuple[Any, dict[str, str]]:
+    """Options and the column mapping (map.<record key>=<column>) from the query."""
+    options, explicit = {}, {}
+    for name, value in request.args.items():
+        if name in _QUERY_OPTIONS:
+            options[name] = value
+        elif name.startswith(_MAP_PREFIX):
+            explicit[name[len(_MAP_PREFIX):]] = value
+        else:
+            raise InvalidInput([("", "holds a query parameter that is neither an option "
+                                     "(country, date_order, reference_date, name_order) nor map.<key>")])
+    service = current_app.extensions["cleaner"]
+    return read_options(options, service.default_options()), explicit
+
+
+@bp.post("/clean/batch")
+def clean_batch():
+    service = current_app.extensions["cleaner"]
+    if request.mimetype not in _BATCH_MEDIA_TYPES:
+        raise RequestProblem(415, "unsupported-media-type", "Unsupported Media Type",
+                             "Send the body as application/json, text/csv or application/x-ndjson.")
+    request.max_content_length = service.max_batch_bytes
+    if request.mimetype == "application/json":
+        return _batch_of_json(service)
+    options, explicit = _query_options_and_map()
+    lines = batch.text_lines(request.stream)
+    if request.mimetype == "text/csv":
+        job = batch.CsvJob.start(lines, explicit, service.rules)   # a bad mapping is a 422 here
+        return Response(stream_with_context(batch.csv_reply(job, options, service.rules)),
+                        mimetype="text/csv")
+    if explicit:
+        raise InvalidInput([("", "map.<key> applies to CSV only")])
+    return Response(stream_with_context(batch.clean_ndjson(
+        (line for line, _ in lines), options, service.rules)), mimetype="application/x-ndjson")
+
+
+def _batch_of_json(service):
+    body = _parsed_body()
+    if not isinstance(body, dict) or not isinstance(body.get("records"), list):
+        raise InvalidInput([("/records", "must be a list of record objects")])
+    if set(body) - {"records", "options"}:
+        raise InvalidInput([("", "holds a member other than records and options")])
+    if len(body["records"]) > service.max_batch_records:
+        raise RequestProblem(413, "too-many-records", "Too Many Records",
+                             f"A JSON batch holds at most {service.max_batch_records} records; "
+                             "send more as NDJSON or in several requests.")
+    options = read_options(body.get("options"), service.default_options())
+    summary = batch.Summary()
+    results = list(batch.clean_records(body["records"], options, service.rules, summary))
+    g.counts = {"records": len(results), "changes": sum(summary.changes.values()),
+                "flags": sum(summary.flags.values())}
+    return jsonify({"results": results, "summary": summary.as_json()})
 
 
 @bp.get("/reasons")

@@ -836,6 +836,8 @@ def clean_parts(raw: Mapping[str, Any], options: Options, rules: RuleBook) -> Ou
         else:
             assembly.emptied[part] = trail
     trails = assembly.trails
+    if not trails:
+        return Outcome(None, list(assembly.emptied.values()))   # every part sent blank
     whole = Trail("address", None, rules.reasons)
     country = options.country
     if "country" in trails:

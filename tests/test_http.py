@@ -22,7 +22,8 @@ from cleaner.web import create_app
 
 SPEC_PATH = Path(__file__).parent.parent / "openapi.yaml"
 SPEC = OpenAPI.from_file_path(str(SPEC_PATH), config=OpenAPIConfig(
-    extra_media_type_deserializers={"application/problem+json": json.loads}))
+    extra_media_type_deserializers={"application/problem+json": json.loads,
+                                    "text/csv": bytes.decode, "application/x-ndjson": bytes.decode}))
 
 
 class Api:

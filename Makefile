@@ -17,7 +17,7 @@ $(VENV)/.installed-run: $(BIN)/python pyproject.toml constraints.txt
 	touch $@
 
 $(VENV)/.installed-test: $(VENV)/.installed-run
-	$(PIP) -e '.[test]'
+	$(PIP) -e '.[test,dask]'
 	touch $@
 
 install: $(VENV)/.installed-run
@@ -33,3 +33,4 @@ check-rules: $(VENV)/.installed-run
 
 bench: $(VENV)/.installed-test
 	$(BIN)/python bench/steps.py
+	$(BIN)/python bench/batch.py

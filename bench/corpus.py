@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import random
+from collections.abc import Iterator
 
 GIVEN = ["Rowan", "Elspeth", "Maria", "José", "William", "Peggy", "Xiaoming", "Anh", "Chidi",
          "Lucía", "Harold", "Adelaide", "DeShawn", "LaToya", "Mackenzie", "Bill", "Ruth",
@@ -79,3 +80,17 @@ def lines_without_commas(count: int, seed: int = 20261203) -> list[tuple[str, st
                                         rng.choice(UNITS)]))
         lines.append((_case(f"{street} {town} {state} {zip_code}", rng), town.upper()))
     return lines
+
+
+def csv_rows(count: int, seed: int = 20261204) -> Iterator[str]:
+    """An invented registration extract: header, then `count` messy rows."""
+    rng = random.Random(seed)
+    yield "MRN,Patient Name,DOB,Sex,Home Phone,Address\n"
+    sexes = ["F", "M", "f", "male", "Female", "U", ""]
+    dates = ["02/03/80", "1980-02-03", "3/4/55", "19711231", "July 4 1990", "", "13/02/1980"]
+    phones = ["(217) 555-0142", "217.555.0199 x12", "555-0143", "", "000-000-0000"]
+    for number in range(count):
+        cells = [f"A-{number:07d}", name(rng), rng.choice(dates), rng.choice(sexes),
+                 rng.choice(phones), address(rng)]
+        yield ",".join(f'"{cell}"' if "," in cell or '"' in cell else cell
+                       for cell in (cell.replace('"', '""') for cell in cells)) + "\n"

@@ -251,3 +251,21 @@ def test_a_file_of_unknown_kind_needs_format(tmp_path):
     source.write_text("x")
     done = run_cli(str(source), "-o", "-")
     assert done.returncode == 2 and b"--format" in done.stderr
+
+
+class Terminal(io.StringIO):
+    def isatty(self):
+        return True
+
+
+def test_the_progress_line_shows_rows_rate_and_time_left_on_a_terminal_only():
+    from cleaner.filejob import Progress
+
+    screen = Terminal()
+    progress = Progress(screen, total_bytes=1000, counted=lambda: 250)
+    progress.update(500, final=True)
+    assert "500 rows" in screen.getvalue() and "rows/s" in screen.getvalue()
+    assert "25%" in screen.getvalue() and "s left" in screen.getvalue()
+    quiet = io.StringIO()
+    Progress(quiet, total_bytes=1000, counted=lambda: 250).update(500, final=True)
+    assert quiet.getvalue() == ""

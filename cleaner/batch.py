@@ -360,7 +360,8 @@ class NotJson:
 NOT_JSON = NotJson()
 
 
-def parse_line(line: str) -> Any:
+def parse_line(line: str | bytes) -> Any:
+    """A JSON document (NaN and Infinity are not JSON), or NOT_JSON."""
     try:
         return json.loads(line, parse_constant=_not_json)
     except (ValueError, RecursionError):

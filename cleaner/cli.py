@@ -10,7 +10,7 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from cleaner.config import Config
-from cleaner.engine import load_rules
+from cleaner.engine import default_rules, load_rules
 from cleaner.rules import RulesError
 
 
@@ -68,8 +68,8 @@ def _clean(args: argparse.Namespace) -> int:
             ("country", args.country), ("date_order", args.date_order),
             ("reference_date", args.reference_date), ("name_order", args.name_order))
             if value is not None}, Config.from_env().default_options())
-        job = filejob.Job(options, os.environ.get("CLEANER_RULES_DIR"), explicit)
-        load_rules(job.rules_dir)
+        job = filejob.Job(options, explicit)
+        default_rules()   # a broken rules folder stops here, before any output
     except (ValueError, RulesError) as exc:  # InvalidInput is a ValueError
         detail = "; ".join(f"{pointer}: {message}" for pointer, message in exc.problems) \
             if isinstance(exc, InvalidInput) else str(exc)

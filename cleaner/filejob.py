@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import io
 import json
-import sys
 import time
 from collections import deque
 from collections.abc import Callable, Iterable, Iterator
@@ -19,9 +18,8 @@ from pathlib import Path
 from typing import Any, BinaryIO, TextIO
 
 from cleaner import batch
-from cleaner.engine import load_rules
+from cleaner.engine import default_rules
 from cleaner.options import Options
-from cleaner.rules import RuleBook
 
 FORMATS = {".csv": "csv", ".ndjson": "ndjson", ".jsonl": "ndjson", ".json": "json"}
 CHUNK_ROWS = 500
@@ -31,18 +29,17 @@ EXAMPLES_PER_FLAG = 3
 
 @dataclass
 class Job:
-    """Everything a worker needs to clean chunks, picklable."""
+    """Everything a worker needs to clean chunks, picklable. Workers read the
+    rules CLEANER_RULES_DIR names (or the embedded ones), once each."""
     options: Options
-    rules_dir: str | None
     explicit: dict[str, str] = field(default_factory=dict)
 
 
-# One set of rules per worker process, loaded by the pool's initializer.
 _worker: dict[str, Any] = {}
 
 
 def _start_worker(job: Job) -> None:
-    _worker["job"], _worker["rules"] = job, load_rules(job.rules_dir)
+    _worker["job"], _worker["rules"] = job, default_rules()
 
 
 def _csv_chunk(chunk: list[tuple[str, str, list[str], bool]], mapping: dict[int, str],
@@ -156,7 +153,7 @@ def run(source: BinaryIO, sink: TextIO, fmt: str, job: Job, jobs: int,
     lines = batch.text_lines(source)
     if fmt == "csv":
         reader = batch.CsvReader(lines)
-        mapping = batch.map_columns(reader.header, job.explicit, load_rules(job.rules_dir)["batch"])
+        mapping = batch.map_columns(reader.header, job.explicit, default_rules()["batch"])
         header = batch.CsvJob(reader, mapping, batch.cleaned_columns(mapping)).header_line()
         sink.write(header)
         width = len(reader.header)

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 from typing import Any
 
 from flask import Blueprint, Response, current_app, g, jsonify, request, stream_with_context
@@ -17,10 +16,6 @@ bp = Blueprint("v1", __name__, url_prefix="/v1")
 _CLEAN_MEMBERS = ("record", "options")
 
 
-def _reject_constant(name: str) -> Any:
-    raise ValueError("not JSON")
-
-
 def read_json_body() -> Any:
     if request.mimetype != "application/json":
         raise RequestProblem(415, "unsupported-media-type", "Unsupported Media Type",
@@ -29,11 +24,11 @@ def read_json_body() -> Any:
 
 
 def _parsed_body() -> Any:
-    try:
-        return json.loads(request.get_data(cache=False), parse_constant=_reject_constant)
-    except (ValueError, RecursionError):
+    body = batch.parse_line(request.get_data(cache=False))
+    if isinstance(body, batch.NotJson):
         raise RequestProblem(400, "malformed-json", "Malformed JSON",
-                             "The body is not a well-formed UTF-8 JSON document.") from None
+                             "The body is not a well-formed UTF-8 JSON document.")
+    return body
 
 
 def _clean_request(body: Any) -> tuple[Any, Any]:

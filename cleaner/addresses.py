@@ -63,18 +63,20 @@ class AddressVocabulary:
     countries: Mapping[tuple[str, ...], str]   # name words -> alpha-2
     longest_country: int
     usps_countries: frozenset[str]
+    boundary_suffixes: frozenset[str]
     zip_first_digits: Mapping[str, frozenset[str]]   # state -> first digits of its ZIPs
     zero_zip_states: frozenset[str]
     number_words: Mapping[str, str]
     forms: Mapping[str, Mapping[tuple[str, ...], str]]
     military_cities: frozenset[str]
     form_fillers: frozenset[str]
+    form_openers: frozenset[str]      # first words of every form phrase
     military_states: frozenset[str]
     placeholder_texts: frozenset[str]      # as typed, upper case, and as normalised
 
-    def is_placeholder(self, value: str) -> bool:
+    def is_placeholder(self, value: str, normalised: str) -> bool:
         return value.upper() in self.placeholder_texts or (
-            normalise(value).replace(",", "") or None) in self.placeholder_texts
+            normalised.replace(",", "") or None) in self.placeholder_texts
     placeholder_street_lines: frozenset[str]
     placeholder_zips: frozenset[str]
 
@@ -83,7 +85,7 @@ _AddressRulesSchema = Schema.from_dict({
     "max_length": fields.Integer(required=True, strict=True, validate=validate.Range(min=40)),
     **{name: fields.String(required=True) for name in (
         "suffixes_table", "units_table", "states_table", "directionals_table", "countries_table")},
-    **string_lists("usps_countries", "us_names"),
+    **string_lists("usps_countries", "us_names", "boundary_suffixes"),
     **{name: fields.Dict(keys=fields.String(), values=fields.String(), required=True)
        for name in ("country_variants", "state_variants", "unit_variants", "number_words")},
     "zip_first_digits": fields.Dict(keys=fields.String(validate=validate.Regexp(r"^\d$")),
@@ -179,6 +181,7 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> AddressVocabula
         states=MappingProxyType(states), longest_state=max(map(len, states)),
         countries=MappingProxyType(countries), longest_country=max(map(len, countries)),
         usps_countries=frozenset(loaded["usps_countries"]),
+        boundary_suffixes=frozenset(loaded["boundary_suffixes"]),
         zip_first_digits=MappingProxyType({code: frozenset(digits)
                                            for code, digits in first_digits.items()}),
         zero_zip_states=frozenset(code for code, digits in first_digits.items()
@@ -193,6 +196,9 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> AddressVocabula
             "general_delivery": _phrases(forms["general_delivery"], "GENERAL DELIVERY")}),
         military_cities=frozenset(forms["military_cities"]),
         form_fillers=frozenset(forms["fillers"]),
+        form_openers=frozenset(phrase[0] for kind in ("po_box", "rural_route", "highway_contract",
+                                                      "military_units", "general_delivery")
+                               for phrase in map(_words, forms[kind])),
         military_states=frozenset(military_states),
         placeholder_texts=frozenset(form for item in loaded["placeholders"]["texts"]
                                     for form in (item.upper(), normalise(item)) if form),
@@ -252,7 +258,9 @@ def _read_form(words: list[str], vocabulary: AddressVocabulary,
     """The delivery forms that are not streets (Pub 28 sections 225, 24 to 28),
     read without the filler words (NO., #) that those lines drop."""
     kept = [word for word in words if word not in vocabulary.form_fillers]
-    line = _read_form_words(kept, vocabulary, military_context) if kept else None
+    if not kept or kept[0] not in vocabulary.form_openers:
+        return None
+    line = _read_form_words(kept, vocabulary, military_context)
     if line is None or len(kept) == len(words):
         return line
     tokens = iter(line.tokens)
@@ -511,17 +519,11 @@ def _split_without_commas(split: Split, line: list[str], end: int,
     cannot be found is flagged, never silently left in the street line."""
     words = line[:end]
     military_context = vocabulary.states.get(tuple(split.state)) in vocabulary.military_states
-    labels = _labels(line)
-    start = None
-    if labels is not None and labels[end - 1] == "PlaceName":
-        start = end
-        while start > 1 and labels[start - 1] == "PlaceName":
-            start -= 1
-        # The tagger's boundary stands only if what it leaves is a delivery line.
-        if read_delivery_line(words[:start], vocabulary, military_context) is None:
-            start = None
+    start = _closing_end(words, vocabulary, military_context, trusted_only=True)
     if start is None:
-        start = _closing_end(words, vocabulary, military_context)
+        start = _tagged_city_start(line, end, vocabulary, military_context)
+    if start is None:
+        start = _closing_end(words, vocabulary, military_context, trusted_only=False)
     if start is None or start >= len(words):
         split.delivery = words
         split.city_unknown = True
@@ -548,20 +550,38 @@ def _units_before_city(words: list[str], start: int, vocabulary: AddressVocabula
     return end if end > at else start
 
 
+def _tagged_city_start(line: list[str], end: int, vocabulary: AddressVocabulary,
+                       military_context: bool) -> int | None:
+    """Where usaddress's tagger, given the whole line, starts the city that
+    ends at `end`; its boundary stands only if what it leaves is a delivery line."""
+    labels = _labels(line)
+    if labels is None or labels[end - 1] != "PlaceName":
+        return None
+    start = end
+    while start > 1 and labels[start - 1] == "PlaceName":
+        start -= 1
+    return start if read_delivery_line(line[:start], vocabulary, military_context) else None
+
+
 def _spelled_directional(word: str, vocabulary: AddressVocabulary) -> bool:
     return len(word) > 2 and word in vocabulary.directionals
 
 
-def _closing_end(words: list[str], vocabulary: AddressVocabulary,
-                 military_context: bool) -> int | None:
+def _closing_end(words: list[str], vocabulary: AddressVocabulary, military_context: bool,
+                 trusted_only: bool) -> int | None:
     """Where the delivery line ends: the shortest one at the start of `words`
     that closes with a suffix, a box or a form (GENERAL DELIVERY), carried on
     over units, an abbreviated postdirectional, and a second suffix word that
     a plain word follows (COUNTRY CLUB RD | SPRINGFIELD, but PENWARDEN CT |
-    PARK RIDGE); a city must be left after it."""
+    PARK RIDGE); a city must be left after it. `trusted_only` takes only a
+    box, a form or a boundary suffix, with no digit opening the city."""
     for end in range(1, len(words)):
         line = read_delivery_line(words[:end], vocabulary, military_context)
         if line is None or line.tokens[-1].role not in _CLOSING_ROLES:
+            continue
+        if trusted_only and (words[end][0].isdigit() or (
+                line.tokens[-1].role == "suffix"
+                and line.tokens[-1].standard not in vocabulary.boundary_suffixes)):
             continue
         while end < len(words) - 1:
             unit_end = _unit_group(words, end, vocabulary)
@@ -694,13 +714,12 @@ def _move_units(assembly: Assembly) -> None:
     assembly.trails["line2"] = moved
 
 
-def _street_key(line: DeliveryLine) -> str | None:
+def _street_key(line: DeliveryLine, found: Mapping[str, str]) -> str | None:
     """Number and street name (12ELM, 1231/2MAIN), or the box line (POBOX12,
     RR2BOX152); none for general delivery, which many people share."""
     if line.kind == "general_delivery":
         return None
     if line.kind == "street":
-        found = components(line)
         words = [found.get("number", ""), found.get("street", "")]
     else:
         words = [token.standard for token in line.tokens if not token.is_unit]
@@ -733,7 +752,7 @@ def assemble(assembly: Assembly, whole: Trail, country: str | None,
     if not placeholder and address["kind"] not in ("unparsed", "non_us"):
         if assembly.zip_code:
             keys["zip5"] = assembly.zip_code[:5]
-        street_key = _street_key(line) if line else None
+        street_key = _street_key(line, address["components"]) if line else None
         if street_key:
             keys["street_key"] = street_key
     return Outcome(address, [*assembly.emptied.values(), *assembly.trails.values(),
@@ -770,7 +789,7 @@ def clean_one_line(raw: Any, options: Options, rules: RuleBook) -> Outcome:
         return _kept_whole(trail, raw, rules, "addresses.unparsed", "unparsed", options.country)
     stages = normalise_stages(value)
     normal = stages[2]
-    if vocabulary.is_placeholder(value):
+    if vocabulary.is_placeholder(value, normal):
         return _kept_whole(trail, raw, rules, "addresses.placeholder", "unparsed", options.country,
                            value.upper())
     split = split_one_line(normal, vocabulary)
@@ -854,13 +873,14 @@ def clean_parts(raw: Mapping[str, Any], options: Options, rules: RuleBook) -> Ou
 
     for part, trail in list(trails.items()):
         sent = str(trail.value)
-        if vocabulary.is_placeholder(sent):
+        stages = normalise_stages(sent.replace(",", " ").strip())
+        if vocabulary.is_placeholder(sent, stages[2]):
             assembly.flags.append("addresses.placeholder")
             assembly.kind = "unparsed" if part == "line1" else assembly.kind
             trail.apply(sent.upper(), "addresses.upper_cased")
             del trails[part]
             assembly.as_sent[part] = trail
-        elif not record_normalising(trail, normalise_stages(sent.replace(",", " ").strip())):
+        elif not record_normalising(trail, stages):
             trail.revert()   # nothing but marks: kept as sent
             assembly.flags.append("addresses.unparsed")
             del trails[part]

@@ -61,10 +61,11 @@ class PlaceholderGroup:
     use: str | None              # the HL7 FHIR NameUse of a name holding the group's words
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class NameVocabulary:
     """What rules/names.toml says, compiled once: the one object to replace
-    to read names of other conventions."""
+    to read names of other conventions. Hashed by identity, so the word
+    caches below can key on it."""
     max_length: int
     max_words: int
     titles: Mapping[str, str]
@@ -251,6 +252,14 @@ class Word:
     hyphen_particle: str | None = None   # written form of a particle joined by a hyphen (al-)
 
 
+@functools.lru_cache(maxsize=32768)
+def _classified(raw: str, quoted: bool, vocabulary: NameVocabulary
+                ) -> tuple[str, str, PlaceholderGroup | None]:
+    """A word's key, kind and placeholder group, once per distinct word."""
+    key = fold(raw)
+    return key, _kind(raw, key, quoted, vocabulary), vocabulary.placeholder_group(key)
+
+
 def _kind(raw: str, key: str, quoted: bool, vocabulary: NameVocabulary) -> str:
     if quoted:
         return "nickname"
@@ -278,9 +287,8 @@ def tokenize(value: str, vocabulary: NameVocabulary) -> list[list[Word]]:
         raw = match[0]
         if not any(ch.isalnum() for ch in raw):
             continue  # a stray mark (".", "-", '""') carries no name
-        key = fold(raw)
-        segments[-1].append(Word(raw, key, _kind(raw, key, match["quoted"] is not None, vocabulary),
-                                 restore, vocabulary.placeholder_group(key)))
+        key, kind, group = _classified(raw, match["quoted"] is not None, vocabulary)
+        segments[-1].append(Word(raw, key, kind, restore, group))
     return segments
 
 
@@ -624,29 +632,38 @@ _STAGE_REASONS = ("names.lookalikes_repaired", "names.punctuation_removed",
                   "names.case_restored")
 
 
-def _unpunctuated(word: Word, raw: str) -> str:
-    if word.kind == "nickname":
+def _unpunctuated(kind: str, raw: str) -> str:
+    if kind == "nickname":
         return raw.strip(_QUOTES).strip()
-    if word.kind in ("initial", "word") and raw.count(".") == 1:
+    if kind in ("initial", "word") and raw.count(".") == 1:
         return raw.rstrip(".")
     return raw
 
 
 def word_stages(word: Word, part: str, vocabulary: NameVocabulary) -> WordStages:
-    repaired = repair_lookalikes(word.raw, vocabulary) if word.kind == "word" else word.raw
-    unpunctuated = _unpunctuated(word, repaired)
+    return _word_stages(word.raw, word.kind, word.restore_case, word.particle,
+                        word.hyphen_particle, part, vocabulary)
+
+
+# Intake data repeats its words (given names, common surnames): each distinct
+# word in each part is taken through the stages once per process.
+@functools.lru_cache(maxsize=32768)
+def _word_stages(raw: str, kind: str, restore_case: bool, particle: str | None,
+                 hyphen_particle: str | None, part: str, vocabulary: NameVocabulary) -> WordStages:
+    repaired = repair_lookalikes(raw, vocabulary) if kind == "word" else raw
+    unpunctuated = _unpunctuated(kind, repaired)
     standard_kind, table, _ = _STANDARD_FORMS.get(part, (None, None, None))
-    if word.kind == standard_kind:
-        return WordStages(word.raw, repaired, unpunctuated, unpunctuated,
-                          getattr(vocabulary, table)[word.key])
+    if kind == standard_kind:
+        return WordStages(raw, repaired, unpunctuated, unpunctuated,
+                          getattr(vocabulary, table)[fold(raw)])
     cased = unpunctuated
-    if word.restore_case and word.kind != "number":
+    if restore_case and kind != "number":
         cased = proper_case(unpunctuated, part, vocabulary)
-        if word.particle is not None:
-            cased = word.particle
-        elif part == "family" and word.hyphen_particle is not None:
-            cased = word.hyphen_particle + cased[cased.index("-"):]
-    return WordStages(word.raw, repaired, unpunctuated, cased, cased)
+        if particle is not None:
+            cased = particle
+        elif part == "family" and hyphen_particle is not None:
+            cased = hyphen_particle + cased[cased.index("-"):]
+    return WordStages(raw, repaired, unpunctuated, cased, cased)
 
 
 def run_stages(trail: Trail, words: list[Word], part: str,
@@ -670,15 +687,17 @@ def run_stages(trail: Trail, words: list[Word], part: str,
 
 # --- match keys -----------------------------------------------------------------
 
+@functools.lru_cache(maxsize=32768)
 def folded_key(value: str) -> str:
     """Upper-case ASCII letters only: accents folded, spaces and punctuation gone."""
     return _NOT_LETTER.sub("", unidecode(value).upper())
 
 
-def _phonetic_keys(part: str, folded: str) -> dict[str, str]:
-    return {f"{part}_folded": folded, f"{part}_soundex": jellyfish.soundex(folded),
-            f"{part}_nysiis": jellyfish.nysiis(folded),
-            f"{part}_metaphone": jellyfish.metaphone(folded)}
+@functools.lru_cache(maxsize=32768)
+def _phonetic_keys(part: str, folded: str) -> Mapping[str, str]:
+    return MappingProxyType({f"{part}_folded": folded, f"{part}_soundex": jellyfish.soundex(folded),
+                             f"{part}_nysiis": jellyfish.nysiis(folded),
+                             f"{part}_metaphone": jellyfish.metaphone(folded)})
 
 
 def match_keys(given: str | None, family: list[tuple[Word, str]],

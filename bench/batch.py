@@ -58,7 +58,7 @@ def json_batches(records: int = 10_000, per_body: int = 1_000) -> float:
     return records / (time.perf_counter() - start)
 
 
-def main() -> None:
+def main() -> dict:
     print("batch: cleaner clean on invented CSV extracts (name, DOB, sex, phone, address)")
     print(f"{'rows':>8} {'jobs':>4} {'seconds':>8} {'rows/s':>8} {'peak MiB main':>14} "
           f"{'peak MiB worker':>16}")
@@ -78,8 +78,13 @@ def main() -> None:
     growth = max(results[large, 1][1], 1) / max(results[small, 1][1], 1)
     print(f"--jobs 2 vs 1 at {large:,} rows: {speedup:.2f}x; peak memory {large:,} vs "
           f"{small:,} rows (one job): {growth:.2f}x")
-    print(f"POST /v1/clean/batch, 1,000-record JSON bodies, in process: "
-          f"{json_batches():,.0f} records/s")
+    json_rate = json_batches()
+    print(f"POST /v1/clean/batch, 1,000-record JSON bodies, in process: {json_rate:,.0f} records/s")
+    return {"cli": {f"{size}_rows_{jobs}_jobs": {"rows_per_s": size / seconds,
+                                                  "peak_mib_main": own, "peak_mib_worker": worker}
+                    for (size, jobs), (seconds, own, worker) in results.items()},
+            "jobs_2_vs_1": speedup, "memory_100k_vs_10k": growth,
+            "json_batch_records_per_s": json_rate}
 
 
 if __name__ == "__main__":

@@ -94,3 +94,13 @@ def csv_rows(count: int, seed: int = 20261204) -> Iterator[str]:
                  rng.choice(phones), address(rng)]
         yield ",".join(f'"{cell}"' if "," in cell or '"' in cell else cell
                        for cell in (cell.replace('"', '""') for cell in cells)) + "\n"
+
+
+def intake_records(count: int, seed: int = 20261205) -> list[dict[str, str]]:
+    """Invented messy intake records: name, birth date, sex, phone, one-line address."""
+    rng = random.Random(seed)
+    dates = ["02/03/80", "1980-02-03", "3/4/55", "19711231", "July 4 1990", "13/02/1980", "4-5-67"]
+    phones = ["(217) 555-0142", "217.555.0199 x12", "555-0143", "2175550144", "+1 217 555 0145",
+              "H: 217-555-0146"]
+    return [{"name": name(rng), "birth_date": rng.choice(dates), "sex": rng.choice("FMfmU"),
+             "phone": rng.choice(phones), "address": address(rng)} for _ in range(count)]

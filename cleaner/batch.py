@@ -31,6 +31,7 @@ from cleaner.trail import Trail
 
 _HEADER_NOISE = re.compile(r"[_\-.\s]+")
 _SIGNED_NUMBER = re.compile(r"^[+-]\d+$")
+_AFTER_LONE_CR = re.compile(r"(?<=\r)(?!\n)")   # old Mac files end lines with CR alone
 
 
 # --- rules ------------------------------------------------------------------------
@@ -202,22 +203,48 @@ def text_lines(binary: io.BufferedIOBase) -> Iterator[tuple[str, bool]]:
         binary.read(3)
     for raw in binary:
         try:
-            yield raw.decode("utf-8"), False
+            line, fell_back = raw.decode("utf-8"), False
         except UnicodeDecodeError:
-            yield raw.decode("cp1252", errors="replace"), True
+            line, fell_back = raw.decode("cp1252", errors="replace"), True
+        for piece in _AFTER_LONE_CR.split(line) if "\r" in line else (line,):
+            if piece:
+                yield piece, fell_back
 
 
 # --- CSV ------------------------------------------------------------------------------
 
+def still_quoted(text: str, quoted: bool = False) -> bool:
+    """Whether a quoted cell is still open at the end of `text`, read as the
+    csv module reads: a quote opens a cell only where the cell begins, and
+    inside a quoted cell a doubled quote is a quote."""
+    if '"' not in text:
+        return quoted
+    at_cell_start, index = not quoted, 0
+    while index < len(text):
+        ch = text[index]
+        if quoted:
+            if ch == '"':
+                if text[index + 1:index + 2] == '"':
+                    index += 1
+                else:
+                    quoted = False
+        elif ch == '"' and at_cell_start:
+            quoted = True
+        at_cell_start = not quoted and ch in ",\r\n"
+        index += 1
+    return quoted
+
+
 def raw_records(lines: Iterable[tuple[str, bool]]) -> Iterator[tuple[str, bool]]:
     """Each CSV record as written, line terminator included, and whether any
-    of its lines was read as Windows-1252: a line whose quotes are not
-    balanced goes on on the next line (RFC 4180 section 2.6)."""
-    pending, fell_back = "", False
+    of its lines was read as Windows-1252: a line that ends inside a quoted
+    cell goes on on the next line (RFC 4180 section 2.6)."""
+    pending, fell_back, quoted = "", False, False
     for line, line_fell_back in lines:
         pending += line
         fell_back = fell_back or line_fell_back
-        if pending.count('"') % 2 == 0:
+        quoted = still_quoted(line, quoted)
+        if not quoted:
             yield pending, fell_back
             pending, fell_back = "", False
     if pending:
@@ -242,19 +269,33 @@ class CsvReader:
         first, _ = next(self._records, ("", False))
         self.header_text, terminator = _without_terminator(first)
         self.terminator = terminator or "\n"
-        self.header = next(csv.reader([self.header_text]), [])
+        self.header = _cells(self.header_text)
+        if self.header is None:
+            raise InvalidInput([("", "the first row is not a CSV header (RFC 4180)")])
 
     def rows(self) -> Iterator[tuple[str, str, list[str], bool]]:
         """(row text, its terminator, its cells, read through Windows-1252)."""
         for record, fell_back in self._records:
             text, terminator = _without_terminator(record)
-            cells = next(csv.reader([text]), []) if text.strip() else []
-            yield text, terminator, cells, fell_back
+            yield text, terminator, _cells(text) if text.strip() else [], fell_back
 
 
-def row_flags(cells: list[str], width: int, text: str, windows_1252: bool) -> list[str]:
+def _cells(text: str) -> list[str] | None:
+    """The cells of one record, or None when it is not CSV: a quoted cell that
+    is never closed, or one that does not close where a cell ends."""
+    if still_quoted(text):
+        return None
+    try:
+        return next(csv.reader([text]), [])
+    except csv.Error:
+        return None
+
+
+def row_flags(cells: list[str] | None, width: int, text: str, windows_1252: bool) -> list[str]:
     codes = []
-    if not text.strip():
+    if cells is None:
+        codes.append("batch.row_unreadable")
+    elif not text.strip():
         codes.append("batch.blank_row")
     elif len(cells) > width:
         codes.append("batch.row_too_long")
@@ -265,10 +306,11 @@ def row_flags(cells: list[str], width: int, text: str, windows_1252: bool) -> li
     return codes
 
 
-def clean_row(cells: list[str], text: str, windows_1252: bool, width: int,
+def clean_row(cells: list[str] | None, text: str, windows_1252: bool, width: int,
               mapping: Mapping[int, str], options: Options, rules: RuleBook) -> dict[str, Any]:
-    """The /v1/clean body of one CSV row, with the row's own flags."""
-    result = clean_record(record_of(cells, mapping), options, rules)
+    """The /v1/clean body of one CSV row, with the row's own flags; a row
+    that is not CSV cleans as an empty record and comes back as it was."""
+    result = clean_record(record_of(cells or [], mapping), options, rules)
     codes = row_flags(cells, width, text, windows_1252)
     if codes:
         trail = Trail("row", text, rules.reasons)
@@ -322,18 +364,20 @@ class CsvJob:
         separator = "," if self.reader.header_text else ""
         return self.reader.header_text + separator + csv_line(names) + self.reader.terminator
 
-    def row_line(self, text: str, terminator: str, cells: list[str], result: Mapping[str, Any],
+    def row_line(self, text: str, terminator: str, cells: list[str] | None,
+                 result: Mapping[str, Any],
                  rules: RuleBook) -> str:
-        return row_line(text, terminator or self.reader.terminator, len(cells),
+        return row_line(text, terminator or self.reader.terminator, cells,
                         len(self.reader.header), result, self.columns, rules)
 
 
-def row_line(text: str, terminator: str, cell_count: int, width: int,
+def row_line(text: str, terminator: str, cells: list[str] | None, width: int,
              result: Mapping[str, Any], columns: list[tuple[str, str, Any]],
              rules: RuleBook) -> str:
     """A row's own text, padded with empty cells to the header's width so the
-    cleaned cells line up under their names, then its cleaned cells."""
-    padding = "," * (width - max(cell_count, 1))
+    cleaned cells line up under their names (not a row that is not CSV, whose
+    width is unknown), then its cleaned cells."""
+    padding = "" if cells is None else "," * (width - max(len(cells), 1))
     return text + padding + "," + csv_line(csv_cells(result, columns, rules)) + terminator
 
 

@@ -49,7 +49,7 @@ def _csv_chunk(chunk: list[tuple[str, str, list[str], bool]], mapping: dict[int,
     lines = []
     for text, row_terminator, cells, fell_back in chunk:
         result = batch.clean_row(cells, text, fell_back, width, mapping, job.options, rules)
-        lines.append((batch.row_line(text, row_terminator or terminator, len(cells), width, result,
+        lines.append((batch.row_line(text, row_terminator or terminator, cells, width, result,
                                      columns, rules), batch.digest(result)))
     return lines
 

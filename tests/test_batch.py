@@ -269,3 +269,25 @@ def test_the_progress_line_shows_rows_rate_and_time_left_on_a_terminal_only():
     quiet = io.StringIO()
     Progress(quiet, total_bytes=1000, counted=lambda: 250).update(500, final=True)
     assert quiet.getvalue() == ""
+
+
+def test_lines_ended_by_cr_alone_are_rows(api):
+    rows = reply_rows(post_csv(api, b"Last Name,First\rQUILLFEATHER,ROWAN\rHARTWELL,ELSPETH\r"))
+    assert [row[:2] for row in rows[1:]] == [["QUILLFEATHER", "ROWAN"], ["HARTWELL", "ELSPETH"]]
+
+
+# Found by fuzzing the reader. A quote inside a cell is a letter, as the csv
+# module reads it; a quoted cell that never closes is no CSV, and the row it
+# opens runs to the end of the file.
+def test_a_row_that_is_not_csv_comes_back_as_it_was_and_flagged(api):
+    body = b'Last Name,First\nQUILL"FEATHER,ROWAN\nBRACKWATER,ODILE\n"HARTWELL,ELSPETH\n'
+    lines = post_csv(api, body).get_data(as_text=True).splitlines()
+    assert len(lines) == 4
+    assert lines[1].startswith('QUILL"FEATHER,ROWAN,,Rowan,,"Quill""feather",')
+    assert lines[2].startswith("BRACKWATER,ODILE,,Odile,,Brackwater,")
+    assert lines[3].startswith('"HARTWELL,ELSPETH,') and lines[3].endswith("batch.row_unreadable")
+
+
+def test_a_header_that_is_not_csv_is_a_problem(api):
+    response = post_csv(api, b'"Last Name,First\nQUILL,ROWAN\n')
+    assert response.status_code == 422

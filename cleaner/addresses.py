@@ -31,8 +31,6 @@ from cleaner.rules import LoadContext, RuleBook, RulesError, string_lists
 from cleaner.trail import Trail
 
 PARTS = ("line1", "line2", "city", "state", "postal_code", "country")
-KINDS = ("street", "po_box", "rural_route", "highway_contract", "military", "general_delivery",
-         "unparsed", "non_us")
 
 _ABBREVIATION_PERIOD = re.compile(r"\b([A-Z])\.")   # P.O., N.E., D.C.
 _MARK = re.compile(r"[^\w\s,#]|_")

@@ -430,10 +430,7 @@ def clean_one(index: int, record: Any, options: Options, rules: RuleBook) -> dic
 def clean_ndjson(lines: Iterable[str], options: Options, rules: RuleBook,
                  summary: Summary | None = None) -> Iterator[str]:
     """One result line per input line, in order; a blank line is an error line."""
-    for index, line in enumerate(lines):
-        result = clean_one(index, parse_line(line), options, rules)
-        if summary is not None:
-            summary.add(None if "error" in result else result)
+    for result in clean_records(map(parse_line, lines), options, rules, summary):
         yield json.dumps(result, ensure_ascii=False) + "\n"
 
 

@@ -70,10 +70,8 @@ def _clean(args: argparse.Namespace) -> int:
             if value is not None}, Config.from_env().default_options())
         job = filejob.Job(options, explicit)
         default_rules()   # a broken rules folder stops here, before any output
-    except (ValueError, RulesError) as exc:  # InvalidInput is a ValueError
-        detail = "; ".join(f"{pointer}: {message}" for pointer, message in exc.problems) \
-            if isinstance(exc, InvalidInput) else str(exc)
-        print(f"cleaner: {detail}", file=sys.stderr)
+    except (ValueError, RulesError) as exc:  # InvalidInput is a ValueError, its text the problems
+        print(f"cleaner: {exc}", file=sys.stderr)
         return 2
     with _opened(args.input, "rb", sys.stdin.buffer) as source, \
             _opened(args.output, "w", sys.stdout) as sink:
@@ -83,8 +81,7 @@ def _clean(args: argparse.Namespace) -> int:
         try:
             outcome = filejob.run(counting, sink, fmt, job, args.jobs, progress)
         except InvalidInput as exc:
-            print("cleaner: " + "; ".join(f"{pointer}: {message}"
-                                          for pointer, message in exc.problems), file=sys.stderr)
+            print(f"cleaner: {exc}", file=sys.stderr)
             return 2
     if args.report:
         Path(args.report).write_text(report.html(outcome, args.input), encoding="utf-8")

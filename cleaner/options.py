@@ -72,6 +72,7 @@ class OptionsSchema(Schema):
 
 # Building a marshmallow schema costs more than loading with it; one serves all requests.
 _OPTIONS_SCHEMA = OptionsSchema()
+OPTION_NAMES = tuple(_OPTIONS_SCHEMA.fields)
 
 
 def pointer_messages(messages: Any, prefix: str) -> list[tuple[str, str]]:
@@ -89,8 +90,7 @@ def pointer_messages(messages: Any, prefix: str) -> list[tuple[str, str]]:
 
 _UNKNOWN_FIELD = "Unknown field."
 # Member names come from the caller and are not echoed back (they could be anything).
-UNKNOWN_OPTION = ("holds a member that is not an option "
-                  "(country, date_order, reference_date, name_order)")
+UNKNOWN_OPTION = f"holds a member that is not an option ({', '.join(OPTION_NAMES)})"
 
 
 def read_options(given: Any, defaults: Options | None = None) -> Options:

@@ -8,7 +8,7 @@ from flask import Blueprint, Response, current_app, g, jsonify, request, stream_
 
 from cleaner import batch
 from cleaner.engine import clean_record
-from cleaner.options import InvalidInput, read_options
+from cleaner.options import OPTION_NAMES, InvalidInput, read_options
 from cleaner.web.problems import RequestProblem
 
 bp = Blueprint("v1", __name__, url_prefix="/v1")
@@ -55,7 +55,6 @@ def clean_one():
 
 
 _BATCH_MEDIA_TYPES = ("application/json", "text/csv", "application/x-ndjson")
-_QUERY_OPTIONS = ("country", "date_order", "reference_date", "name_order")
 _MAP_PREFIX = "map."
 
 
@@ -63,13 +62,13 @@ def _query_options_and_map() -> tuple[Any, dict[str, str]]:
     """Options and the column mapping (map.<record key>=<column>) from the query."""
     options, explicit = {}, {}
     for name, value in request.args.items():
-        if name in _QUERY_OPTIONS:
+        if name in OPTION_NAMES:
             options[name] = value
         elif name.startswith(_MAP_PREFIX):
             explicit[name[len(_MAP_PREFIX):]] = value
         else:
             raise InvalidInput([("", "holds a query parameter that is neither an option "
-                                     "(country, date_order, reference_date, name_order) nor map.<key>")])
+                                     f"({', '.join(OPTION_NAMES)}) nor map.<key>")])
     service = current_app.extensions["cleaner"]
     return read_options(options, service.default_options()), explicit
 

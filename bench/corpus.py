@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import random
+from datetime import date, timedelta
 from collections.abc import Iterator
 
 GIVEN = ["Rowan", "Elspeth", "Maria", "José", "William", "Peggy", "Xiaoming", "Anh", "Chidi",
@@ -82,25 +83,57 @@ def lines_without_commas(count: int, seed: int = 20261203) -> list[tuple[str, st
     return lines
 
 
+# Birth dates spread over a century and written the ways intake forms write
+# them, so that a cache of cleaned values meets them about as often as it
+# would in a real feed: rarely the same day in the same form.
+DATE_FORMS = ["{m:02}/{d:02}/{yy:02}", "{y}-{m:02}-{d:02}", "{m}/{d}/{yy:02}", "{y}{m:02}{d:02}",
+              "{month} {d} {y}", "{d:02}/{m:02}/{y}", "{m}-{d}-{yy:02}", "{m:02}/{d:02}/{y}"]
+MONTHS = ["January", "February", "March", "April", "May", "June", "July", "August",
+          "September", "October", "November", "December"]
+MISSING_DATES = ["", "unknown", "00/00/0000"]
+
+
+def birth_date(rng: random.Random) -> str:
+    if rng.random() < 0.02:
+        return rng.choice(MISSING_DATES)
+    day = date(1925, 1, 1) + timedelta(days=rng.randrange(36_500))
+    return rng.choice(DATE_FORMS).format(y=day.year, yy=day.year % 100, m=day.month, d=day.day,
+                                         month=MONTHS[day.month - 1])
+
+
+# Real area codes, fictional lines: 555-0100 to 555-0199 are set aside for fiction.
+AREA_CODES = ["217", "309", "312", "614", "937", "303", "720", "212", "718", "415", "510",
+              "214", "469", "502", "859", "540", "703", "317", "812", "518", "607", "617"]
+PHONE_FORMS = ["({area}) 555-01{line:02}", "{area}.555.01{line:02} x{ext}", "555-01{line:02}",
+               "{area}55501{line:02}", "+1 {area} 555 01{line:02}", "H: {area}-555-01{line:02}",
+               "1-{area}-555-01{line:02}"]
+MISSING_PHONES = ["", "000-000-0000", "none"]
+
+
+def phone(rng: random.Random) -> str:
+    if rng.random() < 0.03:
+        return rng.choice(MISSING_PHONES)
+    return rng.choice(PHONE_FORMS).format(area=rng.choice(AREA_CODES), line=rng.randrange(100),
+                                          ext=rng.randrange(10, 999))
+
+
 def csv_rows(count: int, seed: int = 20261204) -> Iterator[str]:
     """An invented registration extract: header, then `count` messy rows."""
     rng = random.Random(seed)
     yield "MRN,Patient Name,DOB,Sex,Home Phone,Address\n"
     sexes = ["F", "M", "f", "male", "Female", "U", ""]
-    dates = ["02/03/80", "1980-02-03", "3/4/55", "19711231", "July 4 1990", "", "13/02/1980"]
-    phones = ["(217) 555-0142", "217.555.0199 x12", "555-0143", "", "000-000-0000"]
     for number in range(count):
-        cells = [f"A-{number:07d}", name(rng), rng.choice(dates), rng.choice(sexes),
-                 rng.choice(phones), address(rng)]
+        cells = [f"A-{number:07d}", name(rng), birth_date(rng), rng.choice(sexes),
+                 phone(rng), address(rng)]
         yield ",".join(f'"{cell}"' if "," in cell or '"' in cell else cell
                        for cell in (cell.replace('"', '""') for cell in cells)) + "\n"
 
 
-def intake_records(count: int, seed: int = 20261205) -> list[dict[str, str]]:
+SEED = 20261205
+
+
+def intake_records(count: int, seed: int = SEED) -> list[dict[str, str]]:
     """Invented messy intake records: name, birth date, sex, phone, one-line address."""
     rng = random.Random(seed)
-    dates = ["02/03/80", "1980-02-03", "3/4/55", "19711231", "July 4 1990", "13/02/1980", "4-5-67"]
-    phones = ["(217) 555-0142", "217.555.0199 x12", "555-0143", "2175550144", "+1 217 555 0145",
-              "H: 217-555-0146"]
-    return [{"name": name(rng), "birth_date": rng.choice(dates), "sex": rng.choice("FMfmU"),
-             "phone": rng.choice(phones), "address": address(rng)} for _ in range(count)]
+    return [{"name": name(rng), "birth_date": birth_date(rng), "sex": rng.choice("FMfmU"),
+             "phone": phone(rng), "address": address(rng)} for _ in range(count)]

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import functools
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from typing import Any
@@ -104,8 +105,17 @@ def read_options(given: Any, defaults: Options | None = None) -> Options:
         raise InvalidInput([("/options", "must be an object")])
     if not given:
         return base
+    members = tuple(given.items())
     try:
-        loaded = _OPTIONS_SCHEMA.load(given)
+        hash(members)
+    except TypeError:   # a list or an object where a string belongs: read, and refused
+        return _over_base(members, base)
+    return _remembered_over_base(members, base)
+
+
+def _over_base(given: tuple[tuple[Any, Any], ...], base: Options) -> Options:
+    try:
+        loaded = _OPTIONS_SCHEMA.load(dict(given))
     except ValidationError as exc:
         problems = [(pointer, message) for pointer, message in
                     pointer_messages(exc.messages, "/options") if message != _UNKNOWN_FIELD]
@@ -113,3 +123,8 @@ def read_options(given: Any, defaults: Options | None = None) -> Options:
             problems.append(("/options", UNKNOWN_OPTION))
         raise InvalidInput(problems) from None
     return replace(base, **loaded)
+
+
+# Callers send the same few options again and again; reading them through the
+# schema costs tens of microseconds, finding them again well under one.
+_remembered_over_base = functools.lru_cache(maxsize=256)(_over_base)

@@ -175,6 +175,22 @@ def test_deeply_nested_extra_values_come_back(api):
     assert response.status_code == 200 and response.get_json()["record"]["extra"]["notes"] == nested
 
 
+def test_values_beyond_the_fast_encoder_come_back_exactly(api):
+    # orjson refuses integers beyond 64 bits; the standard encoder takes over.
+    extra = {"account": 2**70, "note": "Zoë Ñandú", "ratio": 0.1}
+    response = api.clean({"sex": "F", **extra})
+    assert response.status_code == 200 and response.get_json()["record"]["extra"] == extra
+    assert "Zoë".encode() in response.get_data()   # UTF-8 as is
+
+
+def test_options_read_again_give_the_same_answer_or_the_same_refusal(api):
+    for _ in range(2):
+        assert api.clean({"birth_date": "03/04/1980"}, date_order="DMY").get_json()[
+            "record"]["birth_date"]["value"] == "1980-04-03"
+        assert is_problem(api.clean({}, date_order="sideways"), 422)
+        assert is_problem(api.clean({}, date_order=["DMY"]), 422)
+
+
 def test_headers_protect_patient_data(api):
     response = api.clean({"sex": "F"})
     assert response.headers["Cache-Control"] == "no-store"
@@ -229,7 +245,7 @@ def test_no_patient_value_in_logs_or_problems(capsys, body, content_type):
                            headers={"X-Request-ID": "desk-7"})
     client.get("/v1/Ravensworth")
     logs = capsys.readouterr().err
-    assert logs.count('"request_id": "desk-7"') == 1 and '"event": "rules loaded"' in logs
+    assert logs.count('"request_id":"desk-7"') == 1 and '"event":"rules loaded"' in logs
     shown = logs + (response.get_data(as_text=True) if response.status_code != 200 else "")
     for fragment in _secret_fragments():
         assert fragment not in shown

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import functools
 from collections.abc import Mapping
 from dataclasses import dataclass, replace
 from typing import Any
@@ -14,6 +15,7 @@ from cleaner.engine import load_rules
 from cleaner.options import Options
 from cleaner.rules import RuleBook
 from cleaner.web import api, logs, meta, problems
+from cleaner.web.encoding import FastJSONProvider
 
 
 @dataclass(frozen=True)
@@ -25,7 +27,13 @@ class Service:
 
     def default_options(self) -> Options:
         """The configured defaults, with today as the reference date of this request."""
-        return replace(self.defaults, reference_date=dt.date.today())
+        return _on_day(self.defaults, dt.date.today())
+
+
+@functools.lru_cache(maxsize=4)
+def _on_day(defaults: Options, day: dt.date) -> Options:
+    # One Options per day, not per request: building it costs more than finding it.
+    return replace(defaults, reference_date=day)
 
 
 def create_app(config: Config | Mapping[str, Any] | None = None) -> Flask:
@@ -36,8 +44,7 @@ def create_app(config: Config | Mapping[str, Any] | None = None) -> Flask:
         config = replace(Config.from_env(), **config).checked()
     app = Flask("cleaner")
     app.config["MAX_CONTENT_LENGTH"] = config.max_body_bytes
-    app.json.sort_keys = False
-    app.json.compact = True
+    app.json = FastJSONProvider(app)
     # Rules are read and checked here, once; a broken table stops start-up.
     service = Service(rules=load_rules(config.rules_dir), defaults=config.default_options(),
                       max_batch_bytes=config.max_batch_bytes,

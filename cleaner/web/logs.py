@@ -6,9 +6,9 @@ from __future__ import annotations
 import functools
 import logging
 import re
+import secrets
 import sys
 import time
-import uuid
 
 import orjson
 from flask import Flask, Response, g, request
@@ -44,17 +44,19 @@ def configure(app: Flask, level: str) -> None:
     @app.before_request
     def start() -> None:
         g.started = time.perf_counter()
-        given = request.headers.get("X-Request-ID", "")
-        g.request_id = given if _REQUEST_ID.match(given) else uuid.uuid4().hex
+        given = request.environ.get("HTTP_X_REQUEST_ID", "")
+        g.request_id = given if _REQUEST_ID.match(given) else secrets.token_hex(16)
 
     @app.after_request
     def finish(response: Response) -> Response:
-        response.headers["X-Request-ID"] = g.get("request_id", "")
-        rule = request.url_rule
-        app.logger.info("request", extra={
-            "request_id": g.get("request_id"), "method": request.method,
-            "route": rule.rule if rule else "(no route)", "status": response.status_code,
-            "duration_ms": round((time.perf_counter() - g.get("started", time.perf_counter()))
-                                 * 1000, 3),
-            **g.get("counts", {})})
+        request_id = g.get("request_id", "")
+        response.headers["X-Request-ID"] = request_id
+        if app.logger.isEnabledFor(logging.INFO):
+            rule = request.url_rule
+            app.logger.info("request", extra={
+                "request_id": request_id, "method": request.method,
+                "route": rule.rule if rule else "(no route)", "status": response.status_code,
+                "duration_ms": round((time.perf_counter() - g.get("started", time.perf_counter()))
+                                     * 1000, 3),
+                **g.get("counts", {})})
         return response

@@ -14,11 +14,12 @@ the Pub 28 tables beside it; nothing here knows a particular place.
 
 from __future__ import annotations
 
+import functools
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from types import MappingProxyType
-from typing import Any
+from typing import Any, NamedTuple
 
 import usaddress
 from marshmallow import Schema, fields, validate
@@ -38,6 +39,7 @@ _HASH = re.compile(r"\s*#\s*")
 _SPACES = re.compile(r"\s+")
 _SPACED_COMMA = re.compile(r"\s*,[\s,]*")
 _HAS_DIGIT = re.compile(r"\d")
+_NOT_IN_KEY = re.compile(r"[^\w/]|_")
 _HOUSE_NUMBER = re.compile(r"^(?:\d+[A-Z]?|\d+-\d+[A-Z]?|[A-Z]?\d+[A-Z]\d+|\d+\.\d+|[A-Z]\d+)$")
 _FRACTION = re.compile(r"^\d+/\d+$")
 _IDENTIFIER = re.compile(r"^(?:[A-Z0-9]+(?:-[A-Z0-9]+)?)$")
@@ -48,18 +50,19 @@ _ZIP_LIKE = re.compile(r"^\d{3,10}(?:-\d{1,5})?$")
 
 # --- vocabulary -----------------------------------------------------------------
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class AddressVocabulary:
-    """What rules/addresses.toml and the Pub 28 tables say, compiled once."""
+    """What rules/addresses.toml and the Pub 28 tables say, compiled once.
+    Hashed by identity, so the street cache below can key on it."""
     max_length: int
     suffixes: Mapping[str, str]            # any C1 form -> standard abbreviation
     units: Mapping[str, str]               # any C2 form -> abbreviation
     units_without_range: frozenset[str]    # abbreviations that stand alone (REAR, BSMT)
     directionals: Mapping[str, str]        # word or abbreviation -> abbreviation
     states: Mapping[tuple[str, ...], str]  # name words, code or variant -> code
-    longest_state: int
+    state_lengths: Mapping[str, tuple[int, ...]]     # last word -> its phrases' lengths
     countries: Mapping[tuple[str, ...], str]   # name words -> alpha-2
-    longest_country: int
+    country_lengths: Mapping[str, tuple[int, ...]]
     usps_countries: frozenset[str]
     boundary_suffixes: frozenset[str]
     zip_first_digits: Mapping[str, frozenset[str]]   # state -> first digits of its ZIPs
@@ -119,10 +122,18 @@ def _kept_mark(match: re.Match[str]) -> str:
 
 
 def punctuated(value: str) -> str:
-    value = _MARK.sub(_kept_mark, _ABBREVIATION_PERIOD.sub(r"\1", value))
-    value = _HASH.sub(" # ", value)
-    value = _SPACED_COMMA.sub(", ", _SPACES.sub(" ", value)).strip(" ,")
-    return value
+    # Each pass is skipped where its pattern cannot match: most lines hold
+    # nothing but letters, digits, spaces and commas, and only a line with
+    # marks or odd spaces needs its spaces folded.
+    if "." in value:
+        value = _ABBREVIATION_PERIOD.sub(r"\1", value)
+    if not value.replace(" ", "").replace(",", "").replace("#", "").isalnum():
+        value = _MARK.sub(_kept_mark, value)
+    if "#" in value:
+        value = _HASH.sub(" # ", value)
+    if "  " in value or not value.isprintable():   # any white space but ' ' is unprintable
+        value = _SPACES.sub(" ", value)
+    return _SPACED_COMMA.sub(", ", value).strip(" ,")
 
 
 def _words(phrase: str) -> tuple[str, ...]:
@@ -131,6 +142,16 @@ def _words(phrase: str) -> tuple[str, ...]:
 
 def _phrases(items: list[str], standard: str) -> dict[tuple[str, ...], str]:
     return {_words(item): standard for item in items}
+
+
+def _lengths_by_last_word(table: Mapping[tuple[str, ...], str]) -> Mapping[str, tuple[int, ...]]:
+    """The lengths of the phrases that end in each word, longest first: a
+    phrase read from the right is looked for only where its last word stands."""
+    lengths: dict[str, set[int]] = {}
+    for phrase in filter(None, table):
+        lengths.setdefault(phrase[-1], set()).add(len(phrase))
+    return MappingProxyType({word: tuple(sorted(found, reverse=True))
+                             for word, found in lengths.items()})
 
 
 def compile_rules(data: dict[str, Any], context: LoadContext) -> AddressVocabulary:
@@ -176,8 +197,8 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> AddressVocabula
         max_length=loaded["max_length"], suffixes=MappingProxyType(suffixes),
         units=MappingProxyType(units), units_without_range=frozenset(without_range),
         directionals=MappingProxyType(directionals),
-        states=MappingProxyType(states), longest_state=max(map(len, states)),
-        countries=MappingProxyType(countries), longest_country=max(map(len, countries)),
+        states=MappingProxyType(states), state_lengths=_lengths_by_last_word(states),
+        countries=MappingProxyType(countries), country_lengths=_lengths_by_last_word(countries),
         usps_countries=frozenset(loaded["usps_countries"]),
         boundary_suffixes=frozenset(loaded["boundary_suffixes"]),
         zip_first_digits=MappingProxyType({code: frozenset(digits)
@@ -206,19 +227,17 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> AddressVocabula
 
 # --- the delivery line ------------------------------------------------------------
 
-@dataclass(slots=True)
-class Token:
+class Token(NamedTuple):   # immutable, as the street cache shares its tokens between lines
     word: str                # as normalised
     role: str                # number, fraction, predirectional, street, suffix, postdirectional,
     #                          unit_type, unit, form, box, route, military_unit_type, military_unit
     standard: str            # as written in the standard form; "" when it joins the word before
 
-    @property
-    def is_unit(self) -> bool:
-        return self.role in ("unit_type", "unit")
+
+_UNIT_ROLES = frozenset(("unit_type", "unit"))
 
 
-@dataclass
+@dataclass(slots=True)
 class DeliveryLine:
     kind: str
     tokens: list[Token]
@@ -255,6 +274,8 @@ def _read_form(words: list[str], vocabulary: AddressVocabulary,
                military_context: bool) -> DeliveryLine | None:
     """The delivery forms that are not streets (Pub 28 sections 225, 24 to 28),
     read without the filler words (NO., #) that those lines drop."""
+    if words[0] not in vocabulary.form_openers and words[0] not in vocabulary.form_fillers:
+        return None   # the street lines that most feeds hold, answered before any copy
     kept = [word for word in words if word not in vocabulary.form_fillers]
     if not kept or kept[0] not in vocabulary.form_openers:
         return None
@@ -341,17 +362,43 @@ def _read_street(words: list[str], vocabulary: AddressVocabulary) -> DeliveryLin
     after the suffix written with '#'."""
     tokens: list[Token] = []
     at = 0
-    number = vocabulary.number_words.get(words[0])
-    if number or _HOUSE_NUMBER.match(words[0]):
-        tokens.append(Token(words[0], "number", number or words[0]))
+    number = _house_number(words[0], vocabulary)
+    if number is not None:
+        tokens.append(number)
         at = 1
         if at < len(words) and _FRACTION.match(words[at]):
             tokens.append(Token(words[at], "fraction", words[at]))
             at += 1
-    leading = at
+    after_number = _street_and_units(tuple(words[at:]), vocabulary)
+    if after_number is None:
+        return None
+    named, units = after_number
+    has_number = at > 0
+    if not has_number and (not any(token.role == "suffix" for token in named)
+                           or sum(token.role == "street" for token in named) > 2):
+        return None   # without a number, only a short name and a suffix make a street
+    return DeliveryLine("street", [*tokens, *named, *units], has_number)
+
+
+# Feeds repeat their house numbers, and their streets and units across house
+# numbers, and the search for where a line without commas ends reads every
+# start of the line: each distinct number and street is read once per process.
+@functools.lru_cache(maxsize=4096)
+def _house_number(word: str, vocabulary: AddressVocabulary) -> Token | None:
+    """The word as a house number (a number word in digits), or None."""
+    number = vocabulary.number_words.get(word)
+    return Token(word, "number", number or word) if number or _HOUSE_NUMBER.match(word) else None
+
+
+@functools.lru_cache(maxsize=16384)
+def _street_and_units(words: tuple[str, ...], vocabulary: AddressVocabulary
+                      ) -> tuple[tuple[Token, ...], tuple[Token, ...]] | None:
+    """The street's tokens and its units' (those before the street moved after
+    it), from the words that follow the house number."""
+    at = 0
     while (end := _unit_group(words, at, vocabulary)) is not None and end < len(words):
         at = end
-    units_before = _unit_tokens(words[leading:at], vocabulary)
+    units_before = _unit_tokens(words[:at], vocabulary)
     rest = words[at:]
     cut = next((index for index in range(1, len(rest))
                 if _units_from(rest, index, vocabulary) is not None), len(rest))
@@ -363,11 +410,7 @@ def _read_street(words: list[str], vocabulary: AddressVocabulary) -> DeliveryLin
     named = _street_tokens(street, vocabulary)
     if named is None:
         return None
-    has_number = leading > 0
-    if not has_number and (not any(token.role == "suffix" for token in named)
-                           or sum(token.role == "street" for token in named) > 2):
-        return None   # without a number, only a short name and a suffix make a street
-    return DeliveryLine("street", tokens + named + units_before + units_after, has_number)
+    return tuple(named), (*units_before, *units_after)
 
 
 def _street_tokens(words: list[str], vocabulary: AddressVocabulary) -> list[Token] | None:
@@ -397,10 +440,10 @@ def read_delivery_line(words: list[str], vocabulary: AddressVocabulary,
     return _read_form(words, vocabulary, military_context) or _read_street(words, vocabulary)
 
 
-def components(line: DeliveryLine) -> dict[str, str]:
+def components(tokens: list[Token]) -> dict[str, str]:
     """The line's components by name; of several units, the last one."""
     found: dict[str, str] = {}
-    for token in line.tokens:
+    for token in tokens:
         if token.role == "form" or not token.standard:
             continue
         if token.role == "unit_type":
@@ -414,7 +457,7 @@ def components(line: DeliveryLine) -> dict[str, str]:
 
 # --- the last line ------------------------------------------------------------------
 
-@dataclass
+@dataclass(slots=True)
 class Split:
     """Which words of a one-line address make which part."""
     delivery: list[str] = field(default_factory=list)
@@ -427,10 +470,10 @@ class Split:
 
 
 def _phrase_before(words: list[str], end: int, table: Mapping[tuple[str, ...], str],
-                   longest: int) -> int | None:
+                   lengths: Mapping[str, tuple[int, ...]]) -> int | None:
     """Start of the longest phrase of `table` that ends at `end`."""
-    for length in range(min(longest, end), 0, -1):
-        if tuple(words[end - length:end]) in table:
+    for length in lengths.get(words[end - 1], ()) if end else ():
+        if length <= end and tuple(words[end - length:end]) in table:
             return end - length
     return None
 
@@ -462,13 +505,13 @@ def split_one_line(value: str, vocabulary: AddressVocabulary) -> Split:
     split = Split()
     end = len(words)
     country = _in_one_segment(segment_of, _phrase_before(
-        words, end, vocabulary.countries, vocabulary.longest_country), end)
+        words, end, vocabulary.countries, vocabulary.country_lengths), end)
     if country is not None and _phrase_before(words, end, vocabulary.states,
-                                              vocabulary.longest_state) is None:
+                                              vocabulary.state_lengths) is None:
         split.country, end = words[country:end], country
     zip_start = _zip_start(words, end)
     state_end = zip_start if zip_start is not None else end
-    state = _phrase_before(words, state_end, vocabulary.states, vocabulary.longest_state) \
+    state = _phrase_before(words, state_end, vocabulary.states, vocabulary.state_lengths) \
         if state_end else None
     if state is not None and state_end - state < _NAME_WITH_COMMAS:
         state = _in_one_segment(segment_of, state, state_end)
@@ -616,15 +659,24 @@ _LINE_STAGES = ((("number",), "addresses.number_words"),
                 (("suffix",), "addresses.suffix_standardised"),
                 (("unit_type",), "addresses.unit_standardised"),
                 (("form", "military_unit_type"), "addresses.box_standardised"))
+_STAGE_OF_ROLE = {role: stage for stage, (roles, _) in enumerate(_LINE_STAGES) for role in roles}
 
 
 def standardise_line(trail: Trail, tokens: list[Token]) -> None:
     written = [token.word for token in tokens]
-    for roles, reason in _LINE_STAGES:
-        for index, token in enumerate(tokens):
-            if token.role in roles:
-                written[index] = token.standard
-        trail.apply(" ".join(word for word in written if word), reason)
+    rewrites: dict[int, list[int]] = {}   # stage -> the tokens whose words it rewrites
+    for index, token in enumerate(tokens):
+        stage = _STAGE_OF_ROLE.get(token.role)
+        if stage is not None and token.standard != token.word:
+            rewrites.setdefault(stage, []).append(index)
+    for stage, (_, reason) in enumerate(_LINE_STAGES):
+        # A stage that rewrites no word would record nothing, but the first
+        # one also writes the tokens in their order (units after the street).
+        if stage and stage not in rewrites:
+            continue
+        for index in rewrites.get(stage, ()):
+            written[index] = tokens[index].standard
+        trail.apply(" ".join(filter(None, written)), reason)
 
 
 def normalise_stages(value: str) -> tuple[str, str, str]:
@@ -678,7 +730,7 @@ def clean_state(trail: Trail, words: list[str], vocabulary: AddressVocabulary) -
 
 # --- assemble ------------------------------------------------------------------------
 
-@dataclass
+@dataclass(slots=True)
 class Assembly:
     """The parts' trails and what was read of them, from either input form."""
     trails: dict[str, Trail] = field(default_factory=dict)
@@ -701,14 +753,18 @@ def _empty_address() -> dict[str, Any]:
 
 def _move_units(assembly: Assembly) -> None:
     """The secondary unit goes to line2 unless a line2 was sent."""
-    line, line1 = assembly.line, assembly.trails["line1"]
-    units = [token for token in line.tokens if token.is_unit]
-    if not units or "line2" in assembly.trails:
+    if "line2" in assembly.trails:
         return
+    units: list[str] = []
+    others: list[str] = []
+    for token in assembly.line.tokens:
+        (units if token.role in _UNIT_ROLES else others).append(token.standard)
+    if not units:
+        return
+    line1 = assembly.trails["line1"]
     moved = assembly.emptied.pop("line2", None) or line1.fork("address.line2")
-    moved.apply(" ".join(token.standard for token in units if token.standard), "addresses.unit_moved")
-    line1.apply(" ".join(token.standard for token in line.tokens
-                         if token.standard and not token.is_unit), "addresses.unit_moved")
+    moved.apply(" ".join(filter(None, units)), "addresses.unit_moved")
+    line1.apply(" ".join(filter(None, others)), "addresses.unit_moved")
     assembly.trails["line2"] = moved
 
 
@@ -720,8 +776,8 @@ def _street_key(line: DeliveryLine, found: Mapping[str, str]) -> str | None:
     if line.kind == "street":
         words = [found.get("number", ""), found.get("street", "")]
     else:
-        words = [token.standard for token in line.tokens if not token.is_unit]
-    return "".join(ch for ch in "".join(words) if ch.isalnum() or ch == "/") or None
+        words = [token.standard for token in line.tokens if token.role not in _UNIT_ROLES]
+    return _NOT_IN_KEY.sub("", "".join(words)) or None
 
 
 def assemble(assembly: Assembly, whole: Trail, country: str | None,
@@ -734,8 +790,7 @@ def assemble(assembly: Assembly, whole: Trail, country: str | None,
     placeholder = "addresses.placeholder" in assembly.flags
     if line is not None:
         address["kind"] = line.kind
-        address["components"] = components(DeliveryLine(line.kind,
-                                                         line.tokens + assembly.line2_units))
+        address["components"] = components(line.tokens + assembly.line2_units)
         if not line.has_number:
             assembly.flags.append("addresses.no_house_number")
         placeholder = placeholder or address["line1"] in vocabulary.placeholder_street_lines

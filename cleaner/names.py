@@ -33,6 +33,8 @@ from cleaner.rules import LoadContext, RuleBook, RulesError, string_lists
 from cleaner.trail import Trail
 
 PARTS = ("prefix", "given", "middle", "family", "suffix")
+_PART_FIELDS = {part: f"name.{part}" for part in (*PARTS, "nickname")}
+_NAME_PARTS = ("given", "middle", "family")   # the parts a person is known by
 NAME_USES = ("usual", "official", "temp", "nickname", "anonymous", "old", "maiden")  # HL7 FHIR R4
 FAMILY_FIRST = "family_first"
 
@@ -46,6 +48,7 @@ _APOSTROPHE_PREFIX = re.compile(r"^(\w)(['’])(\w)")
 # What a name word may hold besides letters: apostrophes, hyphens, periods.
 _NAME_WORD = re.compile(r"^[^\W\d_](?:[^\W\d_]|[\-'’.])*$")
 _VOWEL = re.compile(r"[AEIOUY]")
+_ASCII_LETTER = re.compile(r"[A-Za-z]")
 
 
 # --- vocabulary ---------------------------------------------------------------
@@ -74,6 +77,8 @@ class NameVocabulary:
     comma_only_credentials: frozenset[str]
     particles: Mapping[tuple[str, ...], str]   # folded words -> written form
     longest_particle: int
+    particle_starts: frozenset[str]   # the first folded word of each particle
+    particle_ends: frozenset[str]     # the last folded word of each particle
     hyphen_particles: Mapping[str, str]
     joiners: frozenset[str]
     family_first_surnames: frozenset[str]
@@ -88,12 +93,17 @@ class NameVocabulary:
     no_name_texts: frozenset[str]
     groups: tuple[PlaceholderGroup, ...]
     placeholder_words: Mapping[str, PlaceholderGroup]
+    placeholder_name_words: frozenset[str]   # every word of the groups' names
+    placeholder_texts: Mapping[str, str]     # whole values, case folded -> the first group's code
     placeholder_patterns: re.Pattern[str] | None   # every group's patterns, one named group each
 
     def use_of(self, codes: Iterable[str]) -> str | None:
         """The FHIR NameUse the placeholder codes give a name, if any gives one."""
-        return next((group.use for code in codes for group in self.groups
-                     if group.code == code and group.use), None)
+        for code in codes:
+            for group in self.groups:
+                if group.code == code and group.use:
+                    return group.use
+        return None
 
     def placeholder_group(self, key: str) -> PlaceholderGroup | None:
         group = self.placeholder_words.get(key)
@@ -208,8 +218,11 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> NameVocabulary:
     surnames = _read_surnames(context, loaded["surnames_table"])
     variants = _read_variants(context, loaded["nicknames_table"])
     groups = _compile_groups(placeholders, context)
+    placeholder_texts: dict[str, str] = {}
     placeholder_words: dict[str, PlaceholderGroup] = {}
     for group in groups:
+        for item in group.texts:
+            placeholder_texts.setdefault(item, group.code)
         for word in group.words:
             if placeholder_words.setdefault(word, group) is not group:
                 raise RulesError(f"names: the placeholder word {word!r} is in two groups")
@@ -220,6 +233,8 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> NameVocabulary:
         credentials=_folded_map(loaded["credentials"]),
         comma_only_credentials=frozenset(map(fold, loaded["credentials_after_comma_only"])),
         particles=MappingProxyType(particles), longest_particle=max(map(len, particles)),
+        particle_starts=frozenset(words[0] for words in particles if words),
+        particle_ends=frozenset(words[-1] for words in particles if words),
         hyphen_particles=_folded_map({word: word for word in loaded["hyphenated_particles"]}),
         joiners=frozenset(map(fold, loaded["surname_joiners"])),
         family_first_surnames=frozenset(map(fold, loaded["family_first_surnames"])),
@@ -234,6 +249,9 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> NameVocabulary:
         fillers=frozenset(map(fold, placeholders["fillers"])),
         no_name_texts=frozenset(item.casefold() for item in placeholders["no_name_texts"]),
         groups=groups, placeholder_words=MappingProxyType(placeholder_words),
+        placeholder_name_words=frozenset().union(*(name for group in groups
+                                                   for name in group.names)),
+        placeholder_texts=MappingProxyType(placeholder_texts),
         placeholder_patterns=re.compile("|".join(
             f"(?P<g{index}>{group.pattern})" for index, group in enumerate(groups)
             if group.pattern)) if any(group.pattern for group in groups) else None)
@@ -254,8 +272,11 @@ class Word:
 
 @functools.lru_cache(maxsize=32768)
 def _classified(raw: str, quoted: bool, vocabulary: NameVocabulary
-                ) -> tuple[str, str, PlaceholderGroup | None]:
-    """A word's key, kind and placeholder group, once per distinct word."""
+                ) -> tuple[str, str, PlaceholderGroup | None] | None:
+    """A word's key, kind and placeholder group, once per distinct word; None
+    for a stray mark (".", "-", '""'), which carries no name."""
+    if not any(ch.isalnum() for ch in raw):
+        return None
     key = fold(raw)
     return key, _kind(raw, key, quoted, vocabulary), vocabulary.placeholder_group(key)
 
@@ -279,16 +300,18 @@ def _kind(raw: str, key: str, quoted: bool, vocabulary: NameVocabulary) -> str:
 def tokenize(value: str, vocabulary: NameVocabulary) -> list[list[Word]]:
     """The words of `value` in comma-separated segments (a trailing comma leaves an empty one)."""
     restore = _single_case(value)
-    segments: list[list[Word]] = [[]]
-    for match in _TOKEN.finditer(value):
-        if match["comma"]:
-            segments.append([])
+    segment: list[Word] = []
+    segments = [segment]
+    for quoted, comma, word in _TOKEN.findall(value):
+        if comma:
+            segment = []
+            segments.append(segment)
             continue
-        raw = match[0]
-        if not any(ch.isalnum() for ch in raw):
-            continue  # a stray mark (".", "-", '""') carries no name
-        key, kind, group = _classified(raw, match["quoted"] is not None, vocabulary)
-        segments[-1].append(Word(raw, key, kind, restore, group))
+        raw = quoted or word
+        classified = _classified(raw, bool(quoted), vocabulary)
+        if classified is not None:
+            key, kind, group = classified
+            segment.append(Word(raw, key, kind, restore, group))
     return segments
 
 
@@ -322,7 +345,8 @@ def _take_tail(words: list[Word], reading: Reading, vocabulary: NameVocabulary,
     while end > keep and _is_tail_word(words[end - 1], False, vocabulary) \
             and (len(words[end - 1].key) > 1 or one_letter_suffix):
         end -= 1
-    _sort_tail(words[end:], reading)
+    if end < len(words):
+        _sort_tail(words[end:], reading)
     return words[:end]
 
 
@@ -342,8 +366,10 @@ def _take_titles(words: list[Word], reading: Reading) -> list[Word]:
 def _particle_before(words: list[Word], end: int, vocabulary: NameVocabulary,
                      lowest: int) -> int | None:
     """Start of the longest particle ending just before `end`, not below `lowest`."""
+    if end <= lowest or words[end - 1].key not in vocabulary.particle_ends:
+        return None
     for length in range(min(vocabulary.longest_particle, end - lowest), 0, -1):
-        keys = tuple(word.key for word in words[end - length:end])
+        keys = tuple([word.key for word in words[end - length:end]])
         if keys in vocabulary.particles:
             return end - length
     return None
@@ -351,8 +377,10 @@ def _particle_before(words: list[Word], end: int, vocabulary: NameVocabulary,
 
 def _particle_at(words: list[Word], start: int, vocabulary: NameVocabulary) -> int | None:
     """End of the longest particle starting at `start` and followed by a word."""
+    if start >= len(words) - 1 or words[start].key not in vocabulary.particle_starts:
+        return None
     for length in range(min(vocabulary.longest_particle, len(words) - start - 1), 0, -1):
-        keys = tuple(word.key for word in words[start:start + length])
+        keys = tuple([word.key for word in words[start:start + length]])
         if keys in vocabulary.particles:
             return start + length
     return None
@@ -423,8 +451,8 @@ def _newborn_marker(word: Word) -> bool:
 def _family_first_evidence(words: list[Word], vocabulary: NameVocabulary) -> bool:
     """Whether a given-first name without a comma reads better family first."""
     first, second, last = words[0], words[1], words[-1]
-    upper_first = first.raw.isupper() and len(first.key) > 1 and _VOWEL.search(first.key.upper()) \
-        and first.kind == "word" and any(not word.raw.isupper() for word in words[1:])
+    upper_first = first.raw.isupper() and first.kind == "word" and len(first.key) > 1 \
+        and any(not word.raw.isupper() for word in words[1:]) and _VOWEL.search(first.key.upper())
     family_first_surname = first.key in vocabulary.family_first_surnames \
         and last.key not in vocabulary.family_first_surnames and last.key not in vocabulary.surnames
     surname_before_given = _is_surname_only(first, vocabulary) and (
@@ -508,7 +536,10 @@ def read_name(segments: list[list[Word]], order: str, vocabulary: NameVocabulary
     """Assign every word of a free-text name to a part."""
     reading = Reading()
     reading.nickname = [word for segment in segments for word in segment if word.kind == "nickname"]
-    segments = [[word for word in segment if word.kind != "nickname"] for segment in segments]
+    if reading.nickname:
+        segments = [[word for word in segment if word.kind != "nickname"] for segment in segments]
+    else:
+        segments = list(segments)  # the caller's list stays whole
     tail: list[Word] = []
     while len(segments) > 1 and segments[-1] and all(
             _is_tail_word(word, True, vocabulary) for word in segments[-1]):
@@ -525,7 +556,8 @@ def read_name(segments: list[list[Word]], order: str, vocabulary: NameVocabulary
         word.restore_case = word.restore_case or (word.raw.isupper() and len(word.key) > 1)
     _mark_particles(reading.parts["middle"], vocabulary)
     _mark_particles(reading.parts["family"], vocabulary)
-    if sum(len(reading.parts[part]) for part in ("given", "middle", "family")) == 1:
+    parts = reading.parts
+    if len(parts["given"]) + len(parts["middle"]) + len(parts["family"]) == 1:
         reading.flags.append("names.single_word")
     return reading
 
@@ -535,8 +567,7 @@ def read_name(segments: list[list[Word]], order: str, vocabulary: NameVocabulary
 def _placeholder_only(value: str, words: list[Word], vocabulary: NameVocabulary) -> str | None:
     """The code of a value that is a placeholder text, or made only of
     placeholder words and fillers."""
-    folded = value.casefold()
-    code = next((group.code for group in vocabulary.groups if folded in group.texts), None)
+    code = vocabulary.placeholder_texts.get(value.casefold())
     if code:
         return code
     for word in words:
@@ -548,27 +579,30 @@ def _placeholder_only(value: str, words: list[Word], vocabulary: NameVocabulary)
     return code
 
 
-def _name_placeholder(words: list[Word], vocabulary: NameVocabulary) -> str | None:
-    keys = {word.key for word in words}
+def _name_placeholder(keys: set[str], vocabulary: NameVocabulary) -> str | None:
+    if vocabulary.placeholder_name_words.isdisjoint(keys):
+        return None
     return next((group.code for group in vocabulary.groups
                  if any(name <= keys for name in group.names)), None)
 
 
 def placeholder_marks(parts: Mapping[str, list[Word]], vocabulary: NameVocabulary
                       ) -> tuple[list[str], set[str]]:
-    """Placeholder codes found, and which parts are placeholders."""
-    words = [word for part in ("given", "middle", "family") for word in parts[part]]
-    whole = _name_placeholder(words, vocabulary)
-    if whole:
-        return [whole], {"given", "middle", "family"}
+    """Placeholder codes found, and which parts are placeholders (a part
+    missing from `parts` has no words)."""
+    keys: set[str] = set()
     codes: list[str] = []
     marked: set[str] = set()
-    for part in ("given", "middle", "family"):
-        for word in parts[part]:
+    for part in _NAME_PARTS:
+        for word in parts.get(part, ()):
+            keys.add(word.key)
             if word.placeholder is not None:
                 marked.add(part)
                 if word.placeholder.code not in codes:
                     codes.append(word.placeholder.code)
+    whole = _name_placeholder(keys, vocabulary)
+    if whole:
+        return [whole], set(_NAME_PARTS)
     return codes, marked
 
 
@@ -640,11 +674,6 @@ def _unpunctuated(kind: str, raw: str) -> str:
     return raw
 
 
-def word_stages(word: Word, part: str, vocabulary: NameVocabulary) -> WordStages:
-    return _word_stages(word.raw, word.kind, word.restore_case, word.particle,
-                        word.hyphen_particle, part, vocabulary)
-
-
 # Intake data repeats its words (given names, common surnames): each distinct
 # word in each part is taken through the stages once per process.
 @functools.lru_cache(maxsize=32768)
@@ -666,23 +695,54 @@ def _word_stages(raw: str, kind: str, restore_case: bool, particle: str | None,
     return WordStages(raw, repaired, unpunctuated, cased, cased)
 
 
-def run_stages(trail: Trail, words: list[Word], part: str,
-               vocabulary: NameVocabulary) -> list[str]:
-    """Take a part's words through the stages, recording on the part's trail
-    each stage that changes something; returns each word as finally written."""
-    stages = [word_stages(word, part, vocabulary) for word in words]
+class PartStages(NamedTuple):
+    """A part's text after each stage with the reason a change to it records,
+    the flags its words raise, and each word as finally written."""
+    steps: tuple[tuple[str, str], ...]
+    flags: tuple[str, ...]
+    written: tuple[str, ...]
+
+
+# A part's words as the stages read them.
+StageInputs = tuple[tuple[str, str, bool, str | None, str | None], ...]
+
+
+def _stage_inputs(words: list[Word]) -> StageInputs:
+    return tuple([(word.raw, word.kind, word.restore_case, word.particle, word.hyphen_particle)
+                  for word in words])
+
+
+# Intake data repeats whole parts too (a given name alone, a family name): the
+# texts and flags of a part's words are worked out once per process.
+@functools.lru_cache(maxsize=32768)
+def _part_stages(words: StageInputs, part: str, vocabulary: NameVocabulary) -> PartStages:
+    stages = [_word_stages(*word, part, vocabulary) for word in words]
     # The first reason: a part sent apart may hold commas or stray marks between its words.
     reasons = ("names.punctuation_removed", *_STAGE_REASONS)
     if part in _STANDARD_FORMS:
         reasons += (_STANDARD_FORMS[part][2],)
-    for column, reason in zip(zip(*stages), reasons):
-        trail.apply(" ".join(column), reason)
+    steps = [(" ".join(column), reason) for column, reason in zip(zip(*stages), reasons)]
+    # A stage that leaves the text as the one before left it records nothing.
+    steps = steps[:1] + [step for before, step in zip(steps, steps[1:]) if step[0] != before[0]]
+    flags = []
     if any(step.repaired != step.split for step in stages):
-        trail.flag("names.lookalikes")
-    if any(word.kind == "word" and _NAME_WORD.match(step.repaired) is None
-           for word, step in zip(words, stages)):
-        trail.flag("names.unexpected_characters")
-    return [step.standard for step in stages]
+        flags.append("names.lookalikes")
+    if any(kind == "word" and _NAME_WORD.match(step.repaired) is None
+           for (_, kind, *_), step in zip(words, stages)):
+        flags.append("names.unexpected_characters")
+    return PartStages(tuple(steps), tuple(flags), tuple(step.standard for step in stages))
+
+
+def run_stages(trail: Trail, words: list[Word], part: str,
+               vocabulary: NameVocabulary) -> list[str]:
+    """Take a part's words through the stages, recording on the part's trail
+    each stage that changes something; returns each word as finally written."""
+    staged = _part_stages(_stage_inputs(words), part, vocabulary)
+    for value, reason in staged.steps:
+        trail.apply(value, reason)
+    for code in staged.flags:
+        trail.flag(code)
+    return list(staged.written)
 
 
 # --- match keys -----------------------------------------------------------------
@@ -694,30 +754,50 @@ def folded_key(value: str) -> str:
 
 
 @functools.lru_cache(maxsize=32768)
-def _phonetic_keys(part: str, folded: str) -> Mapping[str, str]:
-    return MappingProxyType({f"{part}_folded": folded, f"{part}_soundex": jellyfish.soundex(folded),
-                             f"{part}_nysiis": jellyfish.nysiis(folded),
-                             f"{part}_metaphone": jellyfish.metaphone(folded)})
+def _phonetic_keys(part: str, folded: str) -> dict[str, str]:
+    return {f"{part}_folded": folded, f"{part}_soundex": jellyfish.soundex(folded),
+            f"{part}_nysiis": jellyfish.nysiis(folded),
+            f"{part}_metaphone": jellyfish.metaphone(folded)}
+
+
+# A family name's words as its keys read them: the written form, whether the
+# word is part of the core (not a particle or joiner), whether a particle is
+# joined to it by a hyphen.
+FamilyKeyInputs = tuple[tuple[str, bool, bool], ...]
+
+
+# The keys of a given name and of a family name are worked out once per
+# distinct part; the cached dicts are only ever copied out.
+@functools.lru_cache(maxsize=32768)
+def _family_keys(family: FamilyKeyInputs) -> dict[str, Any]:
+    folded_family = folded_key(" ".join(written for written, _, _ in family))
+    if not folded_family:
+        return {}
+    core = [folded_key(piece) for written, in_core, hyphenated in family if in_core
+            for piece in written.split("-")[1 if hyphenated else 0:]]
+    core = [piece for piece in core if piece] or [folded_family]
+    return {**_phonetic_keys("family", folded_family), "family_core": "".join(core),
+            "family_parts": tuple(core)}
+
+
+@functools.lru_cache(maxsize=32768)
+def _given_keys(given: str) -> dict[str, str]:
+    folded_given = folded_key(given)
+    if not folded_given:
+        return {}
+    return {**_phonetic_keys("given", folded_given), "given_initial": folded_given[0]}
 
 
 def match_keys(given: str | None, family: list[tuple[Word, str]],
                vocabulary: NameVocabulary) -> dict[str, Any]:
     """Folded and phonetic keys of a given name and of a family name (its words
     with their written forms), and each part of the family name without particles."""
-    keys: dict[str, Any] = {}
-    folded_family = folded_key(" ".join(written for _, written in family))
-    if folded_family:
-        keys.update(_phonetic_keys("family", folded_family))
-        core = [folded_key(piece) for word, written in family
-                if word.particle is None and word.key not in vocabulary.joiners
-                for piece in written.split("-")[1 if word.hyphen_particle else 0:]]
-        core = [piece for piece in core if piece] or [folded_family]
-        keys["family_core"] = "".join(core)
-        keys["family_parts"] = core
-    folded_given = folded_key(given or "")
-    if folded_given:
-        keys.update(_phonetic_keys("given", folded_given))
-        keys["given_initial"] = folded_given[0]
+    keys = {**_family_keys(tuple([(written, word.particle is None
+                                   and word.key not in vocabulary.joiners,
+                                   bool(word.hyphen_particle)) for word, written in family])),
+            **_given_keys(given or "")}
+    if "family_parts" in keys:
+        keys["family_parts"] = list(keys["family_parts"])  # a list of each outcome's own
     return keys
 
 
@@ -756,9 +836,8 @@ def _given_variants(given: list[Word], written: list[str], vocabulary: NameVocab
 
 
 def _alternative(parts: Mapping[str, list[Word]], vocabulary: NameVocabulary) -> dict[str, Any]:
-    return {part: " ".join(word_stages(word, part, vocabulary).standard
-                           for word in parts[part]) or None
-            for part in ("given", "middle", "family")}
+    return {part: " ".join(_part_stages(_stage_inputs(parts[part]), part, vocabulary).written)
+            or None for part in _NAME_PARTS}
 
 
 def assemble(assembly: Assembly, name_trail: Trail, vocabulary: NameVocabulary) -> Outcome:
@@ -768,7 +847,7 @@ def assemble(assembly: Assembly, name_trail: Trail, vocabulary: NameVocabulary) 
     for part, trail in assembly.trails.items():
         words = assembly.words[part]
         trails.append(trail)
-        if part == "middle" and all(word.key in vocabulary.no_middle for word in words):
+        if part == "middle" and vocabulary.no_middle.issuperset([word.key for word in words]):
             trail.apply(None, "names.no_middle_cleared")
             continue
         written[part] = run_stages(trail, words, part, vocabulary)
@@ -786,8 +865,7 @@ def assemble(assembly: Assembly, name_trail: Trail, vocabulary: NameVocabulary) 
 
     family = assembly.words.get("family", [])
     name["particles"] = " ".join(_written_particles(family, written.get("family", []))) or None
-    codes, placeholder_parts = placeholder_marks(
-        {part: assembly.words.get(part, []) for part in ("given", "middle", "family")}, vocabulary)
+    codes, placeholder_parts = placeholder_marks(assembly.words, vocabulary)
     as_sent_codes = [code for _, code in assembly.as_sent.values()]
     for code in [*codes, *as_sent_codes, *assembly.flags]:
         name_trail.flag(code)
@@ -817,9 +895,17 @@ def _unparsed(trail: Trail, code: str, vocabulary: NameVocabulary) -> Outcome:
 
 def _missing_text(value: str, vocabulary: NameVocabulary) -> str | None:
     """The code of a value that says there is no name, or holds no letters."""
-    if value.casefold() in vocabulary.no_name_texts or not any(ch.isalpha() for ch in value):
+    if value.casefold() in vocabulary.no_name_texts or not _has_letter(value):
         return "names.placeholder_missing"
     return None
+
+
+def _has_letter(value: str) -> bool:
+    # One pass of a regular expression reads ASCII text several times faster
+    # than a loop over its characters; beyond ASCII only str.isalpha knows.
+    if value.isascii():
+        return _ASCII_LETTER.search(value) is not None
+    return any(ch.isalpha() for ch in value)
 
 
 def clean_free_text(raw: Any, order: str, rules: RuleBook) -> Outcome:
@@ -841,9 +927,8 @@ def clean_free_text(raw: Any, order: str, rules: RuleBook) -> Outcome:
     for part, part_words in [*reading.parts.items(), ("nickname", reading.nickname)]:
         if part_words:
             assembly.words[part] = part_words
-            assembly.trails[part] = trail.fork(f"name.{part}")
-            assembly.trails[part].apply(" ".join(word.raw for word in part_words),
-                                        "names.split_into_parts")
+            part_trail = assembly.trails[part] = trail.fork(_PART_FIELDS[part])
+            part_trail.apply(" ".join([word.raw for word in part_words]), "names.split_into_parts")
     for index, word in enumerate(reading.credentials):
         credential_trail = trail.fork(f"name.credentials[{index}]")
         credential_trail.apply(word.raw, "names.split_into_parts")

@@ -294,8 +294,8 @@ def test_temporary_names_have_the_fhir_use_temp(clean, value, use):
 
 # The word caches only remember: a value cleaned with them warm gives exactly
 # what it gives with them cleared.
-WORD_CACHES = (names._word_stages, names._classified, names.folded_key, names._phonetic_keys,
-               names.fold)
+WORD_CACHES = (names._word_stages, names._part_stages, names._classified, names.folded_key,
+               names._phonetic_keys, names._family_keys, names._given_keys, names.fold)
 
 
 @settings(max_examples=200, deadline=None)

@@ -10,8 +10,7 @@ from pathlib import Path
 from typing import Any
 
 from cleaner import addresses, dates, email, names, phones, sex, ssn, text
-from cleaner.fieldkind import FieldKind, Outcome
-from cleaner.memo import memo_key
+from cleaner.fieldkind import FieldKind
 from cleaner.options import InvalidInput, Options, read_options
 from cleaner.rules import LoadContext, RuleBook, RulesError, default_directory, load
 from cleaner.trail import Trail
@@ -65,16 +64,6 @@ def _check_shape(record: Any) -> None:
         raise InvalidInput(problems)
 
 
-def _cleaned(kind: FieldKind, raw: Any, options: Options, rules: RuleBook) -> Outcome:
-    key = memo_key(kind.name, raw, options)
-    outcome = rules.memo.recall(key, rules.reasons) if key is not None else None
-    if outcome is None:
-        outcome = kind.clean(raw, options, rules)
-        if key is not None:
-            rules.memo.remember(key, outcome)
-    return outcome
-
-
 def clean_record(record: Mapping[str, Any], options: Options, rules: RuleBook) -> dict[str, Any]:
     _check_shape(record)
     cleaned: dict[str, Any] = {}
@@ -88,7 +77,7 @@ def clean_record(record: Mapping[str, Any], options: Options, rules: RuleBook) -
         if raw is None:
             cleaned[kind.output_key] = None
             continue
-        outcome = _cleaned(kind, raw, options, rules)
+        outcome = kind.clean(raw, options, rules)
         cleaned[kind.output_key] = outcome.value
         keys.update(outcome.keys)
         trails += outcome.trails

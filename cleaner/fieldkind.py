@@ -4,13 +4,11 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 from cleaner.options import Options
+from cleaner.rules import Compiler, RuleBook
 from cleaner.trail import Trail
-
-if TYPE_CHECKING:   # the rules module keeps a memo of outcomes, so it imports this one
-    from cleaner.rules import Compiler, RuleBook
 
 
 @dataclass
@@ -21,7 +19,7 @@ class Outcome:
     keys: dict[str, Any] = field(default_factory=dict)
 
 
-Cleaner = Callable[[Any, Options, "RuleBook"], Outcome]
+Cleaner = Callable[[Any, Options, RuleBook], Outcome]
 
 
 @dataclass(frozen=True)

@@ -13,13 +13,12 @@ import csv
 import hashlib
 import tomllib
 from collections.abc import Callable, Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from marshmallow import Schema, ValidationError, fields, validate, validates_schema
 
-from cleaner.memo import FieldMemo
 from cleaner.trail import Reason
 
 SEVERITIES = ("info", "review", "invalid")
@@ -88,8 +87,6 @@ class RuleBook:
     version: str
     reasons: Mapping[str, Reason]
     tables: Mapping[str, Any]
-    # Outcomes already cleaned under these rules; a copy of the book starts empty.
-    memo: FieldMemo = field(init=False, default_factory=FieldMemo, compare=False, repr=False)
 
     def __getitem__(self, kind: str) -> Any:
         return self.tables[kind]

@@ -43,14 +43,6 @@ class Trail:
         self.flags: list[dict[str, Any]] = []
         self._reasons = reasons
 
-    @classmethod
-    def restored(cls, field: str, value: Any, changes: list[dict[str, Any]],
-                 flags: list[dict[str, Any]], reasons: Mapping[str, Reason]) -> Trail:
-        """A trail as it stood when it was put away (see cleaner.memo)."""
-        trail = cls(field, value, reasons)
-        trail.changes, trail.flags = changes, flags
-        return trail
-
     def _reason(self, code: str, kind: str) -> Reason:
         reason = self._reasons.get(code)
         if reason is None or reason.kind != kind:

@@ -8,7 +8,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, replace
 from typing import Any
 
-from flask import Flask, Response
+from flask import Flask
 
 from cleaner.config import Config
 from cleaner.engine import load_rules
@@ -56,12 +56,4 @@ def create_app(config: Config | Mapping[str, Any] | None = None) -> Flask:
     app.register_blueprint(meta.bp)
     app.logger.info("rules loaded", extra={"rules_version": service.rules.version,
                                            "codes": len(service.rules.reasons)})
-
-    @app.after_request
-    def protect(response: Response) -> Response:
-        # Responses carry patient data: no cache may keep them, no browser may sniff them.
-        response.headers["Cache-Control"] = "no-store"
-        response.headers["X-Content-Type-Options"] = "nosniff"
-        return response
-
     return app

@@ -4,11 +4,12 @@ from __future__ import annotations
 
 from typing import Any
 
-from flask import Blueprint, Response, current_app, g, jsonify, request, stream_with_context
+from flask import Blueprint, Response, current_app, jsonify, request, stream_with_context
 
 from cleaner import batch
 from cleaner.engine import clean_record
 from cleaner.options import OPTION_NAMES, InvalidInput, read_options
+from cleaner.web.logs import COUNTS_KEY
 from cleaner.web.problems import RequestProblem
 
 bp = Blueprint("v1", __name__, url_prefix="/v1")
@@ -50,7 +51,8 @@ def clean_one():
     record, options = _clean_request(read_json_body())
     result = clean_record(record, read_options(options, service.default_options()),
                           service.rules)
-    g.counts = {"records": 1, "changes": len(result["changes"]), "flags": len(result["flags"])}
+    request.environ[COUNTS_KEY] = {"records": 1, "changes": len(result["changes"]),
+                                   "flags": len(result["flags"])}
     return jsonify(result)
 
 
@@ -107,8 +109,9 @@ def _batch_of_json(service):
     options = read_options(body.get("options"), service.default_options())
     summary = batch.Summary()
     results = list(batch.clean_records(body["records"], options, service.rules, summary))
-    g.counts = {"records": len(results), "changes": sum(summary.changes.values()),
-                "flags": sum(summary.flags.values())}
+    request.environ[COUNTS_KEY] = {"records": len(results),
+                                   "changes": sum(summary.changes.values()),
+                                   "flags": sum(summary.flags.values())}
     return jsonify({"results": results, "summary": summary.as_json()})
 
 

@@ -1,5 +1,11 @@
-"""One JSON log line per request, to stderr: ids, route, status, timing and
-counts. Never a value from the request: not its body, query string or path."""
+"""The request envelope, WSGI middleware around the Flask app: every
+response gets the request's id and the headers that keep patient data out of
+caches and browsers' guesses, and every request one JSON log line on stderr
+with ids, route, status, timing and counts. Never a value from the request:
+not its body, query string or path.
+
+It works on the raw WSGI call: a few microseconds, where Flask's request
+hooks and header objects cost several times that on every call."""
 
 from __future__ import annotations
 
@@ -9,13 +15,21 @@ import re
 import secrets
 import sys
 import time
+from collections.abc import Callable, Iterable
+from typing import Any
 
 import orjson
-from flask import Flask, Response, g, request
+from flask import Flask
+
+REQUEST_ID_KEY = "cleaner.request_id"   # WSGI environ keys the views and problems read
+COUNTS_KEY = "cleaner.counts"           # and write
 
 _REQUEST_ID = re.compile(r"^[A-Za-z0-9._:-]{1,128}$")
 _LOG_FIELDS = ("request_id", "method", "route", "status", "duration_ms", "records",
                "changes", "flags", "error_type", "rules_version", "codes")
+# Responses carry patient data: no cache may keep them, no browser may sniff them.
+_PROTECTIVE_HEADERS = (("Cache-Control", "no-store"), ("X-Content-Type-Options", "nosniff"))
+_SET_HERE = frozenset(("cache-control", "x-content-type-options", "x-request-id"))
 
 
 class JsonFormatter(logging.Formatter):
@@ -34,29 +48,44 @@ def _utc_second(second: int) -> str:
     return time.strftime("%Y-%m-%dT%H:%M:%S", time.gmtime(second))
 
 
+WsgiApp = Callable[[dict[str, Any], Callable], Iterable[bytes]]
+
+
+class RequestEnvelope:
+    def __init__(self, app: WsgiApp, logger: logging.Logger):
+        self.app, self.logger = app, logger
+
+    def __call__(self, environ: dict[str, Any], start_response: Callable) -> Iterable[bytes]:
+        started = time.perf_counter()
+        given = environ.get("HTTP_X_REQUEST_ID", "")
+        request_id = given if _REQUEST_ID.match(given) else secrets.token_hex(16)
+        environ[REQUEST_ID_KEY] = request_id
+        sent_status: list[str] = []
+
+        def enveloped_start(status: str, headers: list[tuple[str, str]], exc_info=None):
+            sent_status.append(status)
+            headers[:] = [header for header in headers if header[0].lower() not in _SET_HERE]
+            headers += (("X-Request-ID", request_id), *_PROTECTIVE_HEADERS)
+            return start_response(status, headers, *([exc_info] if exc_info else []))
+
+        body = self.app(environ, enveloped_start)
+        if self.logger.isEnabledFor(logging.INFO):
+            # Flask leaves its request object in the environ; its rule is the
+            # route as declared, never the path as sent.
+            rule = getattr(environ.get("werkzeug.request"), "url_rule", None)
+            self.logger.info("request", extra={
+                "request_id": request_id, "method": environ.get("REQUEST_METHOD"),
+                "route": rule.rule if rule else "(no route)",
+                "status": int(sent_status[0].split(" ", 1)[0]) if sent_status else None,
+                "duration_ms": round((time.perf_counter() - started) * 1000, 3),
+                **environ.get(COUNTS_KEY, {})})
+        return body
+
+
 def configure(app: Flask, level: str) -> None:
     handler = logging.StreamHandler(sys.stderr)
     handler.setFormatter(JsonFormatter())
     app.logger.handlers[:] = [handler]
     app.logger.setLevel(level.upper())
     app.logger.propagate = False
-
-    @app.before_request
-    def start() -> None:
-        g.started = time.perf_counter()
-        given = request.environ.get("HTTP_X_REQUEST_ID", "")
-        g.request_id = given if _REQUEST_ID.match(given) else secrets.token_hex(16)
-
-    @app.after_request
-    def finish(response: Response) -> Response:
-        request_id = g.get("request_id", "")
-        response.headers["X-Request-ID"] = request_id
-        if app.logger.isEnabledFor(logging.INFO):
-            rule = request.url_rule
-            app.logger.info("request", extra={
-                "request_id": request_id, "method": request.method,
-                "route": rule.rule if rule else "(no route)", "status": response.status_code,
-                "duration_ms": round((time.perf_counter() - g.get("started", time.perf_counter()))
-                                     * 1000, 3),
-                **g.get("counts", {})})
-        return response
+    app.wsgi_app = RequestEnvelope(app.wsgi_app, app.logger)

@@ -3,10 +3,11 @@ request's shape, never what the request contained."""
 
 from __future__ import annotations
 
-from flask import Flask, Response, g, json
+from flask import Flask, Response, json, request
 from werkzeug.exceptions import HTTPException
 
 from cleaner.options import InvalidInput
+from cleaner.web.logs import REQUEST_ID_KEY
 
 PROBLEM_TYPE = "urn:demographic-cleaner:problem:"
 PROBLEM_MEDIA_TYPE = "application/problem+json"
@@ -25,7 +26,7 @@ def problem_response(status: int, slug: str, title: str, detail: str,
     body = {"type": PROBLEM_TYPE + slug, "title": title, "status": status, "detail": detail}
     if errors:
         body["errors"] = [{"pointer": pointer, "detail": message} for pointer, message in errors]
-    request_id = g.get("request_id")
+    request_id = request.environ.get(REQUEST_ID_KEY)
     if request_id:
         body["request_id"] = request_id
     return Response(json.dumps(body), status=status, mimetype=PROBLEM_MEDIA_TYPE)

@@ -22,6 +22,7 @@ from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
+import orjson
 from marshmallow import Schema, fields
 
 from cleaner.engine import KINDS, clean_record
@@ -404,8 +405,21 @@ class NotJson:
 NOT_JSON = NotJson()
 
 
+# orjson reads a record several times faster than the json module, but reads
+# an integer beyond 64 bits as a float: a document with a run of 19 digits, and
+# any document orjson refuses (a lone surrogate escape, 1e400, deep nesting),
+# goes to the json module, whose reading is the contract's.
+_LONG_DIGIT_RUN = re.compile(rb"\d{19}")
+
+
 def parse_line(line: str | bytes) -> Any:
     """A JSON document (NaN and Infinity are not JSON), or NOT_JSON."""
+    encoded = line.encode("utf-8", "surrogatepass") if isinstance(line, str) else line
+    if not _LONG_DIGIT_RUN.search(encoded):
+        try:
+            return orjson.loads(encoded)
+        except orjson.JSONDecodeError:
+            pass
     try:
         return json.loads(line, parse_constant=_not_json)
     except (ValueError, RecursionError):

@@ -315,3 +315,26 @@ def test_any_batch_gets_a_documented_answer(api, records, lines):
                         documented=bool(lines))
     assert response.status_code == 200
     assert len(response.get_data(as_text=True).splitlines()) == len(lines)
+
+
+def _json_module_reading(document):
+    try:
+        return batch.json.loads(document, parse_constant=batch._not_json)
+    except (ValueError, RecursionError):
+        return batch.NOT_JSON
+
+
+_json_documents = st.recursive(
+    st.none() | st.booleans() | st.integers() | st.floats(allow_nan=False) | st.text(),
+    lambda inner: st.lists(inner, max_size=4) | st.dictionaries(st.text(max_size=5), inner,
+                                                                 max_size=4),
+    max_leaves=12).map(json.dumps)
+
+
+@settings(max_examples=400, deadline=None)
+@given(document=_json_documents | _json_documents.map(str.encode) | st.text(max_size=30)
+       | st.binary(max_size=30) | st.sampled_from(['"\\ud800"', "[" * 3000, '{"n": 1e400}']))
+def test_the_fast_json_reader_reads_as_the_json_module_does(document):
+    # orjson reads most documents; whatever it reads differently goes to the json module.
+    fast, reference = batch.parse_line(document), _json_module_reading(document)
+    assert repr(fast) == repr(reference) or fast is reference is batch.NOT_JSON

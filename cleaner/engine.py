@@ -58,6 +58,9 @@ def _is_scalar(value: Any) -> bool:
 def _check_shape(record: Any) -> None:
     if not isinstance(record, Mapping):
         raise InvalidInput([("/record", "must be an object")])
+    if all(type(value) is str or value is None for key, value in record.items()
+           if key in KNOWN_KEYS):
+        return   # the usual record, and a string or null is never out of shape
     problems = [problem for kind in KINDS for key in kind.input_keys if key in record
                 for problem in _shape_problems(key, record[key], kind.accepts_list)]
     if problems:

@@ -6,6 +6,7 @@ of one worker, idle and loaded."""
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import re
@@ -19,6 +20,7 @@ import tempfile
 import threading
 import time
 import urllib.request
+from collections.abc import Callable
 from pathlib import Path
 
 HERE = Path(__file__).parent
@@ -31,12 +33,15 @@ from cleaner.engine import default_rules  # noqa: E402
 
 RECORDS = 5_000
 ROUNDS = 3
-LOAD_SECONDS = 10
+LOAD_SECONDS = 12        # per server, in LOAD_TURNS turns
+LOAD_TURNS = 3
 CONNECTIONS = 8
 # More distinct request bodies than either server answers in LOAD_SECONDS, so
 # that no body is sent twice: a cache meets a value again only where the
 # corpus itself repeats it, as a real feed would.
 HTTP_BODIES = 30_000
+WARM_UP_BODIES = 10_000
+WARM_UP_SECONDS = 5
 
 
 def in_process() -> dict:
@@ -63,19 +68,6 @@ def _free_port() -> int:
         return probe.getsockname()[1]
 
 
-def _wait_until_up(url: str, process: subprocess.Popen) -> None:
-    deadline = time.monotonic() + 60
-    while time.monotonic() < deadline:
-        if process.poll() is not None:
-            raise RuntimeError("the server exited")
-        try:
-            urllib.request.urlopen(url, timeout=1)
-            return
-        except OSError:
-            time.sleep(0.2)
-    raise RuntimeError("the server did not come up")
-
-
 def _worker_rss_mib(master: int) -> list[float]:
     """Resident memory of the master's child processes (gunicorn's workers)."""
     sizes = []
@@ -91,38 +83,39 @@ def _worker_rss_mib(master: int) -> list[float]:
     return sorted(sizes)
 
 
-def _wrk(url: str, bodies: list[str]) -> dict:
+def _wrk(url: str, bodies: list[str], first: int, seconds: int) -> dict:
+    """wrk at CONNECTIONS connections, sending the bodies in turn from `first`."""
     with tempfile.TemporaryDirectory() as folder:
         script = Path(folder) / "post.lua"
         script.write_text(
             "bodies = {" + ",".join("[==[" + body + "]==]" for body in bodies) + "}\n"
-            "counter = 0\nwrk.method = 'POST'\n"
+            f"counter = {first}\nwrk.method = 'POST'\n"
             "wrk.headers['Content-Type'] = 'application/json'\n"
             "request = function()\n  counter = counter % #bodies + 1\n"
             "  return wrk.format(nil, nil, nil, bodies[counter])\nend\n")
-        done = subprocess.run(["wrk", "-t2", f"-c{CONNECTIONS}", f"-d{LOAD_SECONDS}s",
+        done = subprocess.run(["wrk", "-t2", f"-c{CONNECTIONS}", f"-d{seconds}s",
                                "--latency", "-s", str(script), url],
-                              capture_output=True, text=True, timeout=LOAD_SECONDS + 60)
+                              capture_output=True, text=True, timeout=seconds + 60)
     out = done.stdout
 
     def millis(label: str) -> float:
         value, unit = re.search(rf"^\s+{label}\s+([\d.]+)(us|ms|s)\b", out, re.M).groups()
         return float(value) * {"us": 0.001, "ms": 1, "s": 1000}[unit]
     errors = re.search(r"Non-2xx or 3xx responses: (\d+)", out)
-    return {"requests_per_s": float(re.search(r"Requests/sec:\s+([\d.]+)", out)[1]),
+    return {"requests": int(re.search(r"(\d+) requests in", out)[1]), "seconds": seconds,
             "p50_ms": millis("50%"), "p99_ms": millis("99%"),
-            "errors": int(errors[1]) if errors else 0, "client": "wrk"}
+            "errors": int(errors[1]) if errors else 0}
 
 
-def _python_client(url: str, bodies: list[str]) -> dict:
-    """A bounded load of CONNECTIONS threads for LOAD_SECONDS, where wrk is missing."""
+def _python_client(url: str, bodies: list[str], first: int, seconds: int) -> dict:
+    """A bounded load of CONNECTIONS threads for `seconds`, where wrk is missing."""
     latencies: list[float] = []
     errors = [0]
-    stop = time.monotonic() + LOAD_SECONDS
+    stop = time.monotonic() + seconds
     lock = threading.Lock()
 
     def client(offset: int) -> None:
-        index = offset
+        index = first + offset
         while time.monotonic() < stop:
             body = bodies[index % len(bodies)].encode()
             index += CONNECTIONS
@@ -143,52 +136,86 @@ def _python_client(url: str, bodies: list[str]) -> dict:
     for thread in threads:
         thread.join()
     quantiles = statistics.quantiles(latencies, n=100)
-    return {"requests_per_s": len(latencies) / LOAD_SECONDS, "p50_ms": quantiles[49] * 1000,
-            "p99_ms": quantiles[98] * 1000, "errors": errors[0], "client": "python threads"}
+    return {"requests": len(latencies), "seconds": seconds, "p50_ms": quantiles[49] * 1000,
+            "p99_ms": quantiles[98] * 1000, "errors": errors[0]}
 
 
-def _load(command: list[str], bodies: list[str], cwd: Path | None = None) -> dict:
+@contextlib.contextmanager
+def _server(command: Callable[[int], list[str]], cwd: Path):
+    """The command's server on a free port: yields (url of /v1/clean, master pid)."""
     port = _free_port()
-    process = subprocess.Popen([*command, "--bind" if "gunicorn" in command[2] else "--port",
-                                f"127.0.0.1:{port}" if "gunicorn" in command[2] else str(port)],
-                               cwd=cwd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+    process = subprocess.Popen(command(port), cwd=cwd,
+                               stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
                                start_new_session=True)
     try:
-        _wait_until_up(f"http://127.0.0.1:{port}/healthz" if "cleaner" in command[2]
-                       else f"http://127.0.0.1:{port}/nowhere", process) \
-            if "cleaner" in command[2] else _wait_for_port(port, process)
-        idle = _worker_rss_mib(process.pid)
         url = f"http://127.0.0.1:{port}/v1/clean"
-        figures = _wrk(url, bodies) if shutil.which("wrk") else _python_client(url, bodies)
-        figures.update(rss_idle_mib=max(idle, default=0),
-                       rss_loaded_mib=max(_worker_rss_mib(process.pid), default=0))
-        return figures
+        _wait_until_answering(url, process)
+        yield url, process.pid
     finally:
         os.killpg(process.pid, signal.SIGTERM)
         process.wait(timeout=30)
 
 
-def _wait_for_port(port: int, process: subprocess.Popen) -> None:
+def _wait_until_answering(url: str, process: subprocess.Popen) -> None:
+    body = json.dumps({"record": {"sex": "F"}}).encode()
     deadline = time.monotonic() + 60
     while time.monotonic() < deadline:
         if process.poll() is not None:
             raise RuntimeError("the server exited")
-        with socket.socket() as probe:
-            if probe.connect_ex(("127.0.0.1", port)) == 0:
-                time.sleep(0.5)   # the workers boot after the master binds
-                return
-        time.sleep(0.2)
+        try:
+            urllib.request.urlopen(urllib.request.Request(
+                url, data=body, headers={"Content-Type": "application/json"}), timeout=1)
+            return
+        except OSError:
+            time.sleep(0.2)
     raise RuntimeError("the server did not come up")
 
 
+def _bodies(count: int, seed: int) -> list[str]:
+    return [json.dumps({"record": record, "options": {"reference_date": "2026-12-02"}})
+            for record in corpus.intake_records(count, seed=seed)]
+
+
 def over_http() -> dict:
-    bodies = [json.dumps({"record": record, "options": {"reference_date": "2026-12-02"}})
-              for record in corpus.intake_records(HTTP_BODIES, seed=corpus.SEED + ROUNDS)]
-    ours = _load([sys.executable, "-m", "cleaner.cli", "serve", "--workers", "2"], bodies)
-    naive = _load([sys.executable, "-m", "gunicorn", "--workers", "2", "--worker-class", "sync",
-                   "naive_app:app"], bodies, cwd=HERE)
-    return {"service": ours, "naive": naive,
-            "ratio": ours["requests_per_s"] / naive["requests_per_s"]}
+    """Both servers up side by side, idle between turns. Each is first warmed
+    up on records of another draw (a service runs for hours: what is measured
+    is its steady state, not its first seconds), then loaded in LOAD_TURNS
+    turns that alternate with the other's, so a machine that runs slower for
+    a while (a shared host does) slows both alike."""
+    bodies = _bodies(HTTP_BODIES, corpus.SEED + ROUNDS)
+    warm_up = _bodies(WARM_UP_BODIES, corpus.SEED + ROUNDS + 1)
+    load = _wrk if shutil.which("wrk") else _python_client
+    turn_seconds = LOAD_SECONDS // LOAD_TURNS
+    # The same server settings: gunicorn, 2 sync workers, the app built before
+    # the workers fork (cleaner serve does so; --preload for the naive app).
+    def ours(port: int) -> list[str]:
+        return [sys.executable, "-m", "cleaner.cli", "serve", "--workers", "2", "--port", str(port)]
+
+    def naive(port: int) -> list[str]:
+        return [sys.executable, "-m", "gunicorn", "--workers", "2", "--worker-class", "sync",
+                "--preload", "--bind", f"127.0.0.1:{port}", "naive_app:app"]
+    with _server(ours, HERE.parent) as (ours_url, ours_pid), \
+            _server(naive, HERE) as (naive_url, naive_pid):
+        servers = {"naive": (naive_url, naive_pid), "service": (ours_url, ours_pid)}
+        figures = {name: {"turns": [], "rss_idle_mib": max(_worker_rss_mib(pid), default=0)}
+                   for name, (_, pid) in servers.items()}
+        for url, _ in servers.values():
+            load(url, warm_up, 0, WARM_UP_SECONDS)
+        for turn in range(LOAD_TURNS):
+            # Each turn starts further into the bodies, so no body is sent twice.
+            first = turn * len(bodies) // LOAD_TURNS
+            for name, (url, _) in servers.items():
+                figures[name]["turns"].append(load(url, bodies, first, turn_seconds))
+        for name, (_, pid) in servers.items():
+            turns = figures[name]["turns"]
+            figures[name].update(
+                requests_per_s=sum(t["requests"] for t in turns) / sum(t["seconds"] for t in turns),
+                p50_ms=statistics.median(t["p50_ms"] for t in turns),
+                p99_ms=max(t["p99_ms"] for t in turns), errors=sum(t["errors"] for t in turns),
+                client="wrk" if load is _wrk else "python threads",
+                rss_loaded_mib=max(_worker_rss_mib(pid), default=0))
+    return {**figures, "ratio": figures["service"]["requests_per_s"]
+            / figures["naive"]["requests_per_s"]}
 
 
 def main() -> dict:
@@ -199,8 +226,8 @@ def main() -> dict:
     print(f"  cleaner.clean  {process['clean_records_per_s']:8,.0f} records/s   "
           f"{process['ratio']:.2f}x")
     http = over_http()
-    print(f"HTTP, gunicorn 2 sync workers, {CONNECTIONS} connections, {LOAD_SECONDS} s, "
-          f"{http['service']['client']}:")
+    print(f"HTTP, gunicorn 2 sync workers, {CONNECTIONS} connections, {LOAD_SECONDS} s each in "
+          f"{LOAD_TURNS} alternating turns, {http['service']['client']}:")
     print(f"  {'':16} {'req/s':>8} {'p50 ms':>7} {'p99 ms':>7} {'errors':>6} "
           f"{'RSS idle':>9} {'RSS loaded':>10}")
     for label in ("naive", "service"):

@@ -32,6 +32,7 @@ from cleaner.rules import LoadContext, RuleBook, RulesError, string_lists
 from cleaner.trail import Trail
 
 PARTS = ("line1", "line2", "city", "state", "postal_code", "country")
+_PART_FIELDS = {part: f"address.{part}" for part in PARTS}
 
 _ABBREVIATION_PERIOD = re.compile(r"\b([A-Z])\.")   # P.O., N.E., D.C.
 _MARK = re.compile(r"[^\w\s,#]|_")
@@ -864,8 +865,8 @@ def clean_one_line(raw: Any, options: Options, rules: RuleBook) -> Outcome:
     for part, words in (("line1", split.delivery), ("city", split.city), ("state", split.state),
                         ("postal_code", split.postal_code), ("country", split.country)):
         if words:
-            assembly.trails[part] = trail.fork(f"address.{part}")
-            assembly.trails[part].apply(" ".join(words), "addresses.split_into_parts")
+            part_trail = assembly.trails[part] = trail.fork(_PART_FIELDS[part])
+            part_trail.apply(" ".join(words), "addresses.split_into_parts")
     standardise_line(assembly.trails["line1"], line.tokens)
     _move_units(assembly)
     _clean_last_line(assembly, vocabulary)

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import functools
 import re
-from collections.abc import Iterable, Mapping
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Any, NamedTuple
@@ -734,7 +734,7 @@ def _part_stages(words: StageInputs, part: str, vocabulary: NameVocabulary) -> P
 
 
 def run_stages(trail: Trail, words: list[Word], part: str,
-               vocabulary: NameVocabulary) -> list[str]:
+               vocabulary: NameVocabulary) -> tuple[str, ...]:
     """Take a part's words through the stages, recording on the part's trail
     each stage that changes something; returns each word as finally written."""
     staged = _part_stages(_stage_inputs(words), part, vocabulary)
@@ -742,7 +742,7 @@ def run_stages(trail: Trail, words: list[Word], part: str,
         trail.apply(value, reason)
     for code in staged.flags:
         trail.flag(code)
-    return list(staged.written)
+    return staged.written
 
 
 # --- match keys -----------------------------------------------------------------
@@ -823,13 +823,14 @@ def _empty_name() -> dict[str, Any]:
             "alternatives": [], "use": None, "placeholder": False, "valid": True}
 
 
-def _written_particles(family: list[Word], written: list[str]) -> list[str]:
+def _written_particles(family: list[Word], written: Sequence[str]) -> list[str]:
     """The family name's particles as the name is written (van, Van, al)."""
     return [form.split("-")[0] if word.hyphen_particle else form
             for word, form in zip(family, written) if word.particle or word.hyphen_particle]
 
 
-def _given_variants(given: list[Word], written: list[str], vocabulary: NameVocabulary) -> list[str]:
+def _given_variants(given: list[Word], written: Sequence[str],
+                    vocabulary: NameVocabulary) -> list[str]:
     if given[0].kind in ("initial", "number"):
         return []
     return list(vocabulary.variants.get(fold(written[0]), ()))
@@ -843,7 +844,7 @@ def _alternative(parts: Mapping[str, list[Word]], vocabulary: NameVocabulary) ->
 def assemble(assembly: Assembly, name_trail: Trail, vocabulary: NameVocabulary) -> Outcome:
     name = _empty_name()
     trails: list[Trail] = []
-    written: dict[str, list[str]] = {}
+    written: dict[str, tuple[str, ...]] = {}
     for part, trail in assembly.trails.items():
         words = assembly.words[part]
         trails.append(trail)
@@ -864,7 +865,7 @@ def assemble(assembly: Assembly, name_trail: Trail, vocabulary: NameVocabulary) 
         name_trail.flag("names.credentials_found")
 
     family = assembly.words.get("family", [])
-    name["particles"] = " ".join(_written_particles(family, written.get("family", []))) or None
+    name["particles"] = " ".join(_written_particles(family, written.get("family", ()))) or None
     codes, placeholder_parts = placeholder_marks(assembly.words, vocabulary)
     as_sent_codes = [code for _, code in assembly.as_sent.values()]
     for code in [*codes, *as_sent_codes, *assembly.flags]:

@@ -54,7 +54,11 @@ class Trail:
         The code is checked when it is recorded; tests/test_reasons.py checks
         statically that every code the package names is listed."""
         if new_value != self.value:
-            self._reason(reason, "change")
+            # Looked up here rather than through _reason: apply runs for every
+            # stage of every field, and the call is a fair share of its cost.
+            known = self._reasons.get(reason)
+            if known is None or known.kind != "change":
+                self._reason(reason, "change")   # raises UnknownReason
             self.changes.append({"field": self.field, "from": self.value, "to": new_value,
                                  "reason": reason})
             self.value = new_value
@@ -83,6 +87,10 @@ class Trail:
         item, or one of several numbers in one cell): it keeps the history so
         far, relabelled, so its own chain still starts at the raw input."""
         child = Trail(field, self.value, self._reasons)
-        child.changes = [{**change, "field": field} for change in self.changes]
-        child.flags = [{**flag, "field": field} for flag in self.flags]
+        # Most values reach a fork with no flags and few changes: a list is
+        # copied only when it holds something.
+        if self.changes:
+            child.changes = [{**change, "field": field} for change in self.changes]
+        if self.flags:
+            child.flags = [{**flag, "field": field} for flag in self.flags]
         return child

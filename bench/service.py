@@ -68,19 +68,33 @@ def _free_port() -> int:
         return probe.getsockname()[1]
 
 
-def _worker_rss_mib(master: int) -> list[float]:
-    """Resident memory of the master's child processes (gunicorn's workers)."""
-    sizes = []
+def _workers(master: int) -> list[Path]:
+    """The /proc folders of the master's child processes (gunicorn's workers)."""
+    found = []
     for status in Path("/proc").glob("[0-9]*/status"):
         try:
-            text = status.read_text()
+            parent = re.search(r"^PPid:\s+(\d+)", status.read_text(), re.M)
         except OSError:
             continue
-        parent = re.search(r"^PPid:\s+(\d+)", text, re.M)
-        rss = re.search(r"^VmRSS:\s+(\d+) kB", text, re.M)
-        if parent and rss and int(parent[1]) == master:
-            sizes.append(int(rss[1]) / 1024)
+        if parent and int(parent[1]) == master:
+            found.append(status.parent)
+    return found
+
+
+def _worker_rss_mib(master: int) -> list[float]:
+    sizes = []
+    for worker in _workers(master):
+        rss = re.search(r"^VmRSS:\s+(\d+) kB", (worker / "status").read_text(), re.M)
+        sizes.append(int(rss[1]) / 1024 if rss else 0)
     return sorted(sizes)
+
+
+def _workers_cpu_seconds(master: int) -> float:
+    """User and system time of the workers: what the app and the server spend,
+    without the load generator that shares the machine."""
+    ticks = sum(int(field) for worker in _workers(master)
+                for field in (worker / "stat").read_text().rsplit(")", 1)[1].split()[11:13])
+    return ticks / os.sysconf("SC_CLK_TCK")
 
 
 def _wrk(url: str, bodies: list[str], first: int, seconds: int) -> dict:
@@ -204,14 +218,18 @@ def over_http() -> dict:
         for turn in range(LOAD_TURNS):
             # Each turn starts further into the bodies, so no body is sent twice.
             first = turn * len(bodies) // LOAD_TURNS
-            for name, (url, _) in servers.items():
+            for name, (url, pid) in servers.items():
+                cpu_before = _workers_cpu_seconds(pid)
                 figures[name]["turns"].append(load(url, bodies, first, turn_seconds))
+                figures[name]["turns"][-1]["worker_cpu_s"] = _workers_cpu_seconds(pid) - cpu_before
         for name, (_, pid) in servers.items():
             turns = figures[name]["turns"]
             figures[name].update(
                 requests_per_s=sum(t["requests"] for t in turns) / sum(t["seconds"] for t in turns),
                 p50_ms=statistics.median(t["p50_ms"] for t in turns),
                 p99_ms=max(t["p99_ms"] for t in turns), errors=sum(t["errors"] for t in turns),
+                worker_cpu_us_per_request=sum(t["worker_cpu_s"] for t in turns) * 1e6
+                / max(sum(t["requests"] for t in turns), 1),
                 client="wrk" if load is _wrk else "python threads",
                 rss_loaded_mib=max(_worker_rss_mib(pid), default=0))
     return {**figures, "ratio": figures["service"]["requests_per_s"]
@@ -228,14 +246,17 @@ def main() -> dict:
     http = over_http()
     print(f"HTTP, gunicorn 2 sync workers, {CONNECTIONS} connections, {LOAD_SECONDS} s each in "
           f"{LOAD_TURNS} alternating turns, {http['service']['client']}:")
-    print(f"  {'':16} {'req/s':>8} {'p50 ms':>7} {'p99 ms':>7} {'errors':>6} "
-          f"{'RSS idle':>9} {'RSS loaded':>10}")
+    print(f"  {'':10} {'req/s':>8} {'p50 ms':>7} {'p99 ms':>7} {'errors':>6} "
+          f"{'worker µs/req':>13} {'RSS idle':>9} {'RSS loaded':>10}")
     for label in ("naive", "service"):
         row = http[label]
-        print(f"  {label:16} {row['requests_per_s']:8,.0f} {row['p50_ms']:7.1f} "
-              f"{row['p99_ms']:7.1f} {row['errors']:6} {row['rss_idle_mib']:8.0f}M "
-              f"{row['rss_loaded_mib']:9.0f}M")
-    print(f"  POST /v1/clean vs naive endpoint: {http['ratio']:.2f}x; service p99/p50 "
+        print(f"  {label:10} {row['requests_per_s']:8,.0f} {row['p50_ms']:7.1f} "
+              f"{row['p99_ms']:7.1f} {row['errors']:6} {row['worker_cpu_us_per_request']:13,.0f} "
+              f"{row['rss_idle_mib']:8.0f}M {row['rss_loaded_mib']:9.0f}M")
+    cpu_ratio = (http["naive"]["worker_cpu_us_per_request"]
+                 / http["service"]["worker_cpu_us_per_request"])
+    print(f"  POST /v1/clean vs naive endpoint: {http['ratio']:.2f}x requests/s "
+          f"({cpu_ratio:.2f}x less worker CPU a request); service p99/p50 "
           f"{http['service']['p99_ms'] / http['service']['p50_ms']:.2f}")
     return {"in_process": process, "http": http}
 

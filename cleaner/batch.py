@@ -274,11 +274,22 @@ class CsvReader:
         if self.header is None:
             raise InvalidInput([("", "the first row is not a CSV header (RFC 4180)")])
 
-    def rows(self) -> Iterator[tuple[str, str, list[str], bool]]:
-        """(row text, its terminator, its cells, read through Windows-1252)."""
+    def records(self) -> Iterator[tuple[str, str, bool]]:
+        """(row text, its terminator, read through Windows-1252): the rows
+        before their cells are read, which row_cells does where the row is
+        cleaned (in a worker process, for cleaner clean --jobs)."""
         for record, fell_back in self._records:
-            text, terminator = _without_terminator(record)
-            yield text, terminator, _cells(text) if text.strip() else [], fell_back
+            yield *_without_terminator(record), fell_back
+
+    def rows(self) -> Iterator[tuple[str, str, list[str] | None, bool]]:
+        """(row text, its terminator, its cells, read through Windows-1252)."""
+        for text, terminator, fell_back in self.records():
+            yield text, terminator, row_cells(text), fell_back
+
+
+def row_cells(text: str) -> list[str] | None:
+    """A row's cells: none for a blank row, None for one that is not CSV."""
+    return _cells(text) if text.strip() else []
 
 
 def _cells(text: str) -> list[str] | None:

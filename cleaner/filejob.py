@@ -42,12 +42,15 @@ def _start_worker(job: Job) -> None:
     _worker["job"], _worker["rules"] = job, default_rules()
 
 
-def _csv_chunk(chunk: list[tuple[str, str, list[str], bool]], mapping: dict[int, str],
+def _csv_chunk(chunk: list[tuple[str, str, bool]], mapping: dict[int, str],
                width: int, terminator: str) -> list[tuple[str, batch.Digest]]:
     job, rules = _worker["job"], _worker["rules"]
     columns = batch.cleaned_columns(mapping)
     lines = []
-    for text, row_terminator, cells, fell_back in chunk:
+    for text, row_terminator, fell_back in chunk:
+        # Cells are read here, in the worker: the process that reads the file
+        # is the one a run with several jobs waits on.
+        cells = batch.row_cells(text)
         result = batch.clean_row(cells, text, fell_back, width, mapping, job.options, rules)
         lines.append((batch.row_line(text, row_terminator or terminator, cells, width, result,
                                      columns, rules), batch.digest(result)))
@@ -157,7 +160,7 @@ def run(source: BinaryIO, sink: TextIO, fmt: str, job: Job, jobs: int,
         header = batch.CsvJob(reader, mapping, batch.cleaned_columns(mapping)).header_line()
         sink.write(header)
         width = len(reader.header)
-        for chunk, results in _paired(_chunks(reader.rows(), CHUNK_ROWS), _csv_chunk, job, jobs,
+        for chunk, results in _paired(_chunks(reader.records(), CHUNK_ROWS), _csv_chunk, job, jobs,
                                       mapping, width, reader.terminator):
             sink.writelines(account(results, (row[0] for row in chunk)))
     else:

@@ -191,6 +191,17 @@ def test_options_read_again_give_the_same_answer_or_the_same_refusal(api):
         assert is_problem(api.clean({}, date_order=["DMY"]), 422)
 
 
+def test_each_request_logs_its_route_status_and_counts(capsys):
+    app = create_app({"log_level": "INFO"})
+    app.test_client().post("/v1/clean", json={"record": {"sex": "f"}})
+    app.test_client().get("/no/such/path")
+    lines = [json.loads(line) for line in capsys.readouterr().err.splitlines()]
+    requests = [line for line in lines if line["event"] == "request"]
+    assert [(line["route"], line["status"]) for line in requests] == [
+        ("/v1/clean", 200), ("(no route)", 404)]
+    assert requests[0]["records"] == 1 and requests[0]["changes"] == 1
+
+
 def test_headers_protect_patient_data(api):
     response = api.clean({"sex": "F"})
     assert response.headers["Cache-Control"] == "no-store"

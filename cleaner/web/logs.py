@@ -19,10 +19,11 @@ from collections.abc import Callable, Iterable
 from typing import Any
 
 import orjson
-from flask import Flask
+from flask import Flask, request
 
 REQUEST_ID_KEY = "cleaner.request_id"   # WSGI environ keys the views and problems read
 COUNTS_KEY = "cleaner.counts"           # and write
+_ROUTE_KEY = "cleaner.route"
 
 _REQUEST_ID = re.compile(r"^[A-Za-z0-9._:-]{1,128}$")
 _LOG_FIELDS = ("request_id", "method", "route", "status", "duration_ms", "records",
@@ -70,12 +71,9 @@ class RequestEnvelope:
 
         body = self.app(environ, enveloped_start)
         if self.logger.isEnabledFor(logging.INFO):
-            # Flask leaves its request object in the environ; its rule is the
-            # route as declared, never the path as sent.
-            rule = getattr(environ.get("werkzeug.request"), "url_rule", None)
             self.logger.info("request", extra={
                 "request_id": request_id, "method": environ.get("REQUEST_METHOD"),
-                "route": rule.rule if rule else "(no route)",
+                "route": environ.get(_ROUTE_KEY, "(no route)"),
                 "status": int(sent_status[0].split(" ", 1)[0]) if sent_status else None,
                 "duration_ms": round((time.perf_counter() - started) * 1000, 3),
                 **environ.get(COUNTS_KEY, {})})
@@ -89,3 +87,10 @@ def configure(app: Flask, level: str) -> None:
     app.logger.setLevel(level.upper())
     app.logger.propagate = False
     app.wsgi_app = RequestEnvelope(app.wsgi_app, app.logger)
+
+    @app.before_request
+    def note_route() -> None:
+        # The route as declared (/v1/clean), never the path as sent, for the log line.
+        rule = request.url_rule
+        if rule is not None:
+            request.environ[_ROUTE_KEY] = rule.rule

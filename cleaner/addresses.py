@@ -865,8 +865,8 @@ def clean_one_line(raw: Any, options: Options, rules: RuleBook) -> Outcome:
     for part, words in (("line1", split.delivery), ("city", split.city), ("state", split.state),
                         ("postal_code", split.postal_code), ("country", split.country)):
         if words:
-            part_trail = assembly.trails[part] = trail.fork(_PART_FIELDS[part])
-            part_trail.apply(" ".join(words), "addresses.split_into_parts")
+            assembly.trails[part] = trail.split_off(_PART_FIELDS[part], " ".join(words),
+                                                    "addresses.split_into_parts")
     standardise_line(assembly.trails["line1"], line.tokens)
     _move_units(assembly)
     _clean_last_line(assembly, vocabulary)

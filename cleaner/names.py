@@ -928,12 +928,12 @@ def clean_free_text(raw: Any, order: str, rules: RuleBook) -> Outcome:
     for part, part_words in [*reading.parts.items(), ("nickname", reading.nickname)]:
         if part_words:
             assembly.words[part] = part_words
-            part_trail = assembly.trails[part] = trail.fork(_PART_FIELDS[part])
-            part_trail.apply(" ".join([word.raw for word in part_words]), "names.split_into_parts")
+            assembly.trails[part] = trail.split_off(
+                _PART_FIELDS[part], " ".join([word.raw for word in part_words]),
+                "names.split_into_parts")
     for index, word in enumerate(reading.credentials):
-        credential_trail = trail.fork(f"name.credentials[{index}]")
-        credential_trail.apply(word.raw, "names.split_into_parts")
-        assembly.credentials.append((word, credential_trail))
+        assembly.credentials.append((word, trail.split_off(
+            f"name.credentials[{index}]", word.raw, "names.split_into_parts")))
     return assemble(assembly, Trail("name", raw, rules.reasons), vocabulary)
 
 

@@ -472,8 +472,8 @@ def clean_cell(trail: Trail, cell: str, first_position: int, region: str,
         return [(trail, clean_number(trail, cell, region, rules))]
     cleaned = []
     for offset, part in enumerate(parts):
-        part_trail = trail.fork(f"phones[{first_position + offset}]")
-        part_trail.apply(part, "phones.split_multiple")
+        part_trail = trail.split_off(f"phones[{first_position + offset}]", part,
+                                     "phones.split_multiple")
         cleaned.append((part_trail, clean_number(part_trail, part, region, rules, part)))
     return cleaned
 

@@ -94,3 +94,10 @@ class Trail:
         if self.flags:
             child.flags = [{**flag, "field": field} for flag in self.flags]
         return child
+
+    def split_off(self, field: str, part: str, reason: str) -> Trail:
+        """The trail of one part of this value (a name part, an address line,
+        one of several numbers): a fork whose first own change is the split."""
+        child = self.fork(field)
+        child.apply(part, reason)
+        return child

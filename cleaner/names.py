@@ -722,8 +722,6 @@ def _part_stages(words: StageInputs, part: str, vocabulary: NameVocabulary) -> P
     if part in _STANDARD_FORMS:
         reasons += (_STANDARD_FORMS[part][2],)
     steps = [(" ".join(column), reason) for column, reason in zip(zip(*stages), reasons)]
-    # A stage that leaves the text as the one before left it records nothing.
-    steps = steps[:1] + [step for before, step in zip(steps, steps[1:]) if step[0] != before[0]]
     flags = []
     if any(step.repaired != step.split for step in stages):
         flags.append("names.lookalikes")
@@ -754,10 +752,13 @@ def folded_key(value: str) -> str:
 
 
 @functools.lru_cache(maxsize=32768)
-def _phonetic_keys(part: str, folded: str) -> dict[str, str]:
-    return {f"{part}_folded": folded, f"{part}_soundex": jellyfish.soundex(folded),
-            f"{part}_nysiis": jellyfish.nysiis(folded),
-            f"{part}_metaphone": jellyfish.metaphone(folded)}
+def _phonetic_keys(part: str, folded: str) -> Mapping[str, str]:
+    return MappingProxyType({f"{part}_folded": folded, f"{part}_soundex": jellyfish.soundex(folded),
+                             f"{part}_nysiis": jellyfish.nysiis(folded),
+                             f"{part}_metaphone": jellyfish.metaphone(folded)})
+
+
+_NO_KEYS: Mapping[str, Any] = MappingProxyType({})
 
 
 # A family name's words as its keys read them: the written form, whether the
@@ -767,25 +768,26 @@ FamilyKeyInputs = tuple[tuple[str, bool, bool], ...]
 
 
 # The keys of a given name and of a family name are worked out once per
-# distinct part; the cached dicts are only ever copied out.
+# distinct part, read-only: each outcome copies them into its own dict.
 @functools.lru_cache(maxsize=32768)
-def _family_keys(family: FamilyKeyInputs) -> dict[str, Any]:
+def _family_keys(family: FamilyKeyInputs) -> Mapping[str, Any]:
     folded_family = folded_key(" ".join(written for written, _, _ in family))
     if not folded_family:
-        return {}
+        return _NO_KEYS
     core = [folded_key(piece) for written, in_core, hyphenated in family if in_core
             for piece in written.split("-")[1 if hyphenated else 0:]]
     core = [piece for piece in core if piece] or [folded_family]
-    return {**_phonetic_keys("family", folded_family), "family_core": "".join(core),
-            "family_parts": tuple(core)}
+    return MappingProxyType({**_phonetic_keys("family", folded_family),
+                             "family_core": "".join(core), "family_parts": tuple(core)})
 
 
 @functools.lru_cache(maxsize=32768)
-def _given_keys(given: str) -> dict[str, str]:
+def _given_keys(given: str) -> Mapping[str, str]:
     folded_given = folded_key(given)
     if not folded_given:
-        return {}
-    return {**_phonetic_keys("given", folded_given), "given_initial": folded_given[0]}
+        return _NO_KEYS
+    return MappingProxyType({**_phonetic_keys("given", folded_given),
+                             "given_initial": folded_given[0]})
 
 
 def match_keys(given: str | None, family: list[tuple[Word, str]],

@@ -6,13 +6,16 @@ from __future__ import annotations
 import functools
 import os
 from collections.abc import Mapping
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
+
+from marshmallow import Schema, fields, validate
 
 from cleaner import addresses, dates, email, names, phones, sex, ssn, text
 from cleaner.fieldkind import FieldKind
 from cleaner.options import InvalidInput, Options, read_options
-from cleaner.rules import LoadContext, RuleBook, RulesError, default_directory, load
+from cleaner.rules import LoadContext, RuleBook, default_directory, load
 from cleaner.trail import Trail
 
 # The order of the response's `record` keys.
@@ -22,15 +25,27 @@ KNOWN_KEYS = frozenset(key for kind in KINDS for key in kind.input_keys)
 _SCALARS = (str, int, float)
 
 
-def _reasons_only(data: dict[str, Any], context: LoadContext) -> None:
-    if data:
-        raise RulesError(f"{context.kind}.toml holds only reasons, not {sorted(data)}")
+@dataclass(frozen=True)
+class RecordRules:
+    # Every value a field kind reads is bounded, so that no one record can hold
+    # a worker for long; a longer value is refused, never cut.
+    max_field_chars: int
+
+
+_RecordRulesSchema = Schema.from_dict({
+    "max_field_chars": fields.Integer(required=True, strict=True,
+                                      validate=validate.Range(min=80, max=100_000)),
+})
+
+
+def _record_rules(data: dict[str, Any], context: LoadContext) -> RecordRules:
+    return RecordRules(**context.validated(_RecordRulesSchema(), data))
 
 
 def load_rules(directory: Path | str | None = None) -> RuleBook:
     # The batch module reads records through this one, so it is imported here, not above.
     from cleaner import batch
-    compilers = {"text": text.compile_rules, "record": _reasons_only, "batch": batch.compile_rules}
+    compilers = {"text": text.compile_rules, "record": _record_rules, "batch": batch.compile_rules}
     compilers.update((kind.name, kind.compile_rules) for kind in KINDS)
     return load(Path(directory) if directory else default_directory(), compilers)
 
@@ -41,34 +56,43 @@ def default_rules() -> RuleBook:
     return load_rules(os.environ.get("CLEANER_RULES_DIR"))
 
 
-def _shape_problems(key: str, value: Any, accepts_list: bool) -> list[tuple[str, str]]:
+def _shape_problems(key: str, value: Any, accepts_list: bool,
+                    max_chars: int) -> list[tuple[str, str]]:
     if accepts_list and isinstance(value, list):
-        return [(f"/record/{key}/{index}", "must be a string or a number")
-                for index, item in enumerate(value) if item is not None and not _is_scalar(item)]
+        return [problem for index, item in enumerate(value)
+                for problem in _item_problems(f"/record/{key}/{index}", item, max_chars)]
     if value is None or _is_scalar(value):
-        return []
+        return _item_problems(f"/record/{key}", value, max_chars)
     return [(f"/record/{key}", "must be a string, a number or a list of them" if accepts_list
              else "must be a string or a number")]
+
+
+def _item_problems(pointer: str, item: Any, max_chars: int) -> list[tuple[str, str]]:
+    if item is not None and not _is_scalar(item):
+        return [(pointer, "must be a string or a number")]
+    if isinstance(item, str) and len(item) > max_chars:
+        return [(pointer, f"is longer than {max_chars} characters")]
+    return []
 
 
 def _is_scalar(value: Any) -> bool:
     return isinstance(value, _SCALARS) and not isinstance(value, bool)
 
 
-def _check_shape(record: Any) -> None:
+def _check_shape(record: Any, max_chars: int) -> None:
     if not isinstance(record, Mapping):
         raise InvalidInput([("/record", "must be an object")])
-    if all(type(value) is str or value is None for key, value in record.items()
-           if key in KNOWN_KEYS):
-        return   # the usual record, and a string or null is never out of shape
+    if all(value is None or (type(value) is str and len(value) <= max_chars)
+           for key, value in record.items() if key in KNOWN_KEYS):
+        return   # the usual record: strings within the limit, and nulls
     problems = [problem for kind in KINDS for key in kind.input_keys if key in record
-                for problem in _shape_problems(key, record[key], kind.accepts_list)]
+                for problem in _shape_problems(key, record[key], kind.accepts_list, max_chars)]
     if problems:
         raise InvalidInput(problems)
 
 
 def clean_record(record: Mapping[str, Any], options: Options, rules: RuleBook) -> dict[str, Any]:
-    _check_shape(record)
+    _check_shape(record, rules["record"].max_field_chars)
     cleaned: dict[str, Any] = {}
     keys: dict[str, Any] = {}
     trails: list[Trail] = []

@@ -7,6 +7,7 @@ import pytest
 
 import cleaner
 from cleaner import engine
+from conftest import edit_rules
 from cleaner.rules import DigitRanges, RulesError
 from cleaner.trail import Trail, UnknownReason
 
@@ -44,6 +45,38 @@ def test_wrong_shapes_raise_with_a_pointer(record, pointer):
     with pytest.raises(cleaner.InvalidInput) as caught:
         cleaner.clean(record)
     assert [p for p, _ in caught.value.problems] == [pointer]
+
+
+LIMIT = 512   # rules/record.toml max_field_chars
+
+
+@pytest.mark.parametrize("record, pointer", [
+    ({"name": "Odalys " * 80}, "/record/name"),
+    ({"address": "1" * (LIMIT + 1)}, "/record/address"),
+    ({"family": "Q" * (LIMIT + 1), "given": "Odalys"}, "/record/family"),
+    ({"phone": ["(217) 555-0142", "5" * (LIMIT + 1)]}, "/record/phone/1"),
+    ({"email": "r" * LIMIT + "@example.org"}, "/record/email"),
+])
+def test_a_value_over_the_field_limit_is_refused_never_cut(record, pointer):
+    with pytest.raises(cleaner.InvalidInput) as caught:
+        cleaner.clean(record)
+    assert caught.value.problems == [(pointer, f"is longer than {LIMIT} characters")]
+
+
+def test_a_value_at_the_field_limit_is_cleaned_and_unknown_keys_are_not_limited():
+    body = cleaner.clean({"ssn": "1" * LIMIT, "chart_note": "x" * (LIMIT * 4)})
+    assert body["record"]["ssn"]["valid"] is False
+    assert body["record"]["extra"]["chart_note"] == "x" * (LIMIT * 4)
+
+
+def test_the_field_limit_is_a_rule(rules_copy):
+    edit_rules(rules_copy, "record.toml", "max_field_chars = 512", "max_field_chars = 100")
+    narrow = engine.load_rules(rules_copy)
+    with pytest.raises(cleaner.InvalidInput):
+        cleaner.clean({"name": "Odalys Ravensworth " * 6}, rules=narrow)
+    edit_rules(rules_copy, "record.toml", "max_field_chars = 100", "max_field_chars = 5")
+    with pytest.raises(RulesError, match="max_field_chars"):
+        engine.load_rules(rules_copy)
 
 
 def test_options_are_checked(clean):
@@ -108,7 +141,7 @@ def test_rules_version_changes_with_any_table(rules_copy):
                  "description = \"A flag without a severity.\"\nsource = \"test\"\n", "severity"),
     ("text.toml", "\n[[reasons]]\ncode = \"sex.misplaced\"\nkind = \"change\"\n"
                   "description = \"Listed in the wrong file.\"\nsource = \"test\"\n", "must start"),
-    ("record.toml", "[surprise]\nkey = 1\n", "only reasons"),
+    ("record.toml", "[surprise]\nkey = 1\n", "Unknown field"),
     ("record.toml", "surprise = 1\n", "Unknown field"),
 ])
 def test_broken_rules_stop_start_up(rules_copy, file, text, message):

@@ -9,7 +9,7 @@ from flask import Blueprint, Response, current_app, jsonify, request, stream_wit
 from cleaner import batch
 from cleaner.engine import clean_record
 from cleaner.options import OPTION_NAMES, InvalidInput, read_options
-from cleaner.web.logs import COUNTS_KEY
+from cleaner.web.logs import SUMMARY_KEY
 from cleaner.web.problems import RequestProblem
 
 bp = Blueprint("v1", __name__, url_prefix="/v1")
@@ -51,9 +51,14 @@ def clean_one():
     record, options = _clean_request(read_json_body())
     result = clean_record(record, read_options(options, service.default_options()),
                           service.rules)
-    request.environ[COUNTS_KEY] = {"records": 1, "changes": len(result["changes"]),
-                                   "flags": len(result["flags"])}
+    _summary().add(result)
     return jsonify(result)
+
+
+def _summary() -> batch.Summary:
+    """The summary of this request's records, for its log line and the metrics."""
+    summary = request.environ[SUMMARY_KEY] = batch.Summary()
+    return summary
 
 
 _BATCH_MEDIA_TYPES = ("application/json", "text/csv", "application/x-ndjson")
@@ -88,12 +93,14 @@ def clean_batch():
     lines = batch.text_lines(request.stream)
     if request.mimetype == "text/csv":
         job = batch.CsvJob.start(lines, explicit, service.rules)   # a bad mapping is a 422 here
-        return Response(stream_with_context(batch.csv_reply(job, options, service.rules)),
+        return Response(stream_with_context(batch.csv_reply(job, options, service.rules,
+                                                            _summary())),
                         mimetype="text/csv")
     if explicit:
         raise InvalidInput([("", "map.<key> applies to CSV only")])
     return Response(stream_with_context(batch.clean_ndjson(
-        (line for line, _ in lines), options, service.rules)), mimetype="application/x-ndjson")
+        (line for line, _ in lines), options, service.rules, _summary())),
+        mimetype="application/x-ndjson")
 
 
 def _batch_of_json(service):
@@ -107,11 +114,8 @@ def _batch_of_json(service):
                              f"A JSON batch holds at most {service.max_batch_records} records; "
                              "send more as NDJSON or in several requests.")
     options = read_options(body.get("options"), service.default_options())
-    summary = batch.Summary()
+    summary = _summary()
     results = list(batch.clean_records(body["records"], options, service.rules, summary))
-    request.environ[COUNTS_KEY] = {"records": len(results),
-                                   "changes": sum(summary.changes.values()),
-                                   "flags": sum(summary.flags.values())}
     return jsonify({"results": results, "summary": summary.as_json()})
 
 

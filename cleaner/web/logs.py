@@ -1,8 +1,9 @@
 """The request envelope, WSGI middleware around the Flask app: every
 response gets the request's id and the headers that keep patient data out of
-caches and browsers' guesses, and every request one JSON log line on stderr
-with ids, route, status, timing and counts. Never a value from the request:
-not its body, query string or path.
+caches and browsers' guesses, and every request, once its last byte is sent,
+one JSON log line on stderr with ids, route, status, timing and counts, and
+its figures in the metrics. Never a value from the request: not its body,
+query string or path.
 
 It works on the raw WSGI call: a few microseconds, where Flask's request
 hooks and header objects cost several times that on every call."""
@@ -20,10 +21,14 @@ from typing import Any
 
 import orjson
 from flask import Flask, request
+from werkzeug.wsgi import ClosingIterator
+
+from cleaner.web import metrics
 
 REQUEST_ID_KEY = "cleaner.request_id"   # WSGI environ keys the views and problems read
-COUNTS_KEY = "cleaner.counts"           # and write
+SUMMARY_KEY = "cleaner.summary"         # and write: the batch.Summary of what was cleaned
 _ROUTE_KEY = "cleaner.route"
+_NO_ROUTE = "(no route)"
 
 _REQUEST_ID = re.compile(r"^[A-Za-z0-9._:-]{1,128}$")
 _LOG_FIELDS = ("request_id", "method", "route", "status", "duration_ms", "records",
@@ -89,15 +94,24 @@ class RequestEnvelope:
             headers += (("X-Request-ID", request_id), *_PROTECTIVE_HEADERS)
             return start_response(status, headers, *([exc_info] if exc_info else []))
 
-        body = self.app(environ, enveloped_start)
-        if self.logger.isEnabledFor(logging.INFO):
-            self.log.write_line("info", "request", {
-                "request_id": request_id, "method": environ.get("REQUEST_METHOD"),
-                "route": environ.get(_ROUTE_KEY, "(no route)"),
-                "status": int(sent_status[0].split(" ", 1)[0]) if sent_status else None,
-                "duration_ms": round((time.perf_counter() - started) * 1000, 3),
-                **environ.get(COUNTS_KEY, {})})
-        return body
+        def finish() -> None:
+            # A streamed batch is done when the server closes its reply, not
+            # when the view returns: its counts and duration are known only then.
+            route = environ.get(_ROUTE_KEY, _NO_ROUTE)
+            status = int(sent_status[0].split(" ", 1)[0]) if sent_status else 500
+            seconds = time.perf_counter() - started
+            summary = environ.get(SUMMARY_KEY)
+            metrics.record(route, status, seconds, summary)
+            if self.logger.isEnabledFor(logging.INFO):
+                counts = {} if summary is None else {
+                    "records": summary.rows, "changes": sum(summary.changes.values()),
+                    "flags": sum(summary.flags.values())}
+                self.log.write_line("info", "request", {
+                    "request_id": request_id, "method": environ.get("REQUEST_METHOD"),
+                    "route": route, "status": status,
+                    "duration_ms": round(seconds * 1000, 3), **counts})
+
+        return ClosingIterator(self.app(environ, enveloped_start), finish)
 
 
 def configure(app: Flask, level: str) -> None:

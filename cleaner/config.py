@@ -2,13 +2,18 @@
 
 from __future__ import annotations
 
+import hashlib
 import os
+import re
 from collections.abc import Mapping
 from dataclasses import dataclass, fields
+from pathlib import Path
 
 from cleaner.options import InvalidInput, Options, read_options
 
 MIB = 1024 * 1024
+_VISIBLE_ASCII = re.compile(r"^[\x21-\x7e]+$")
+_SHA256_HEX = re.compile(r"^[0-9a-fA-F]{64}$")
 
 
 @dataclass(frozen=True)
@@ -21,6 +26,8 @@ class Config:
     default_date_order: str = "MDY"
     default_name_order: str = "given_first"
     log_level: str = "INFO"
+    api_keys: str | None = None              # comma-separated keys
+    api_key_hashes_file: str | None = None   # SHA-256 of each key, hex, one a line
 
     @classmethod
     def from_env(cls, environ: Mapping[str, str] = os.environ) -> Config:
@@ -43,7 +50,35 @@ class Config:
         if self.log_level.upper() not in ("DEBUG", "INFO", "WARNING", "ERROR"):
             raise ValueError("CLEANER_LOG_LEVEL must be DEBUG, INFO, WARNING or ERROR")
         self.default_options()
+        self.api_key_digests()
         return self
+
+    def api_key_digests(self) -> frozenset[bytes]:
+        """The SHA-256 digests of the keys that open the service; none: it is open.
+        Only digests are kept, so a key is never held in memory past start-up."""
+        digests = set()
+        for key in (self.api_keys or "").split(","):
+            key = key.strip()
+            if key:
+                if len(key) < 16 or not _VISIBLE_ASCII.match(key):
+                    raise ValueError("CLEANER_API_KEYS: each key must be at least 16 visible "
+                                     "ASCII characters")
+                digests.add(hashlib.sha256(key.encode("ascii")).digest())
+        if self.api_key_hashes_file:
+            try:
+                lines = Path(self.api_key_hashes_file).read_text(encoding="utf-8").splitlines()
+            except OSError as exc:
+                raise ValueError(f"CLEANER_API_KEY_HASHES_FILE: cannot read it: "
+                                 f"{exc.strerror}") from None
+            for number, line in enumerate(lines, start=1):
+                line = line.split("#", 1)[0].strip()
+                if not line:
+                    continue
+                if not _SHA256_HEX.match(line):
+                    raise ValueError(f"CLEANER_API_KEY_HASHES_FILE line {number}: not a SHA-256 "
+                                     "digest in hex (64 characters 0-9, a-f)")
+                digests.add(bytes.fromhex(line))
+        return frozenset(digests)
 
     def default_options(self) -> Options:
         """Options a request gets for what it does not say (its reference date is taken per request)."""

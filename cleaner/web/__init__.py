@@ -14,7 +14,7 @@ from cleaner.config import Config
 from cleaner.engine import load_rules
 from cleaner.options import Options
 from cleaner.rules import RuleBook
-from cleaner.web import api, logs, meta, problems
+from cleaner.web import access, api, logs, meta, metrics, problems
 from cleaner.web.encoding import FastJSONProvider
 
 
@@ -52,8 +52,10 @@ def create_app(config: Config | Mapping[str, Any] | None = None) -> Flask:
     app.extensions["cleaner"] = service
     logs.configure(app, config.log_level)
     problems.register(app)
+    access.register(app, config.api_key_digests())
     app.register_blueprint(api.bp)
     app.register_blueprint(meta.bp)
+    app.register_blueprint(metrics.bp)
     app.logger.info("rules loaded", extra={"rules_version": service.rules.version,
                                            "codes": len(service.rules.reasons)})
     return app

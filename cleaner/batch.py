@@ -70,11 +70,14 @@ def map_columns(header: list[str], explicit: Mapping[str, str], rules: BatchRule
     """Column index -> record key. An explicit mapping (record key -> header)
     wins over recognised spellings; unknown keys or headers are errors."""
     known = {key for kind in KINDS for key in kind.input_keys}
-    problems = [(f"/map/{key}", "is not a record key this service cleans")
-                for key in explicit if key not in known]
+    # A key the service does not know comes from the caller and is not echoed.
+    problems = [("/map", "holds a key that is not a record key this service cleans")
+                ] if set(explicit) - known else []
     by_header = {header_key(name): index for index, name in enumerate(header)}
     mapping: dict[int, str] = {}
     for key, column in explicit.items():
+        if key not in known:
+            continue
         index = by_header.get(header_key(column))
         if index is None:
             problems.append((f"/map/{key}", "names a column the header does not have"))

@@ -116,7 +116,7 @@ def test_an_explicit_mapping_overrides_the_header(api):
 
 
 @pytest.mark.parametrize("query, pointer", [("&map.family=Nowhere", "/map/family"),
-                                            ("&map.colour=Last%20Name", "/map/colour"),
+                                            ("&map.colour=Last%20Name", "/map"),
                                             ("&shoe_size=9", ""),
                                             ("&date_order=sideways", "/options/date_order")])
 def test_a_bad_mapping_or_option_is_a_problem_before_any_row(api, query, pointer):

@@ -90,3 +90,17 @@ def pytest_collection_modifyitems(session, config, items):
 
 def pytest_configure(config):
     config.addinivalue_line("markers", "after_all: run after every other collected test")
+
+
+# A record of distinctive invented values: none may reach a log line, a metric
+# or a problem body.
+SECRETS = {"ssn": "219-45-0172", "email": "zephyrine.quillfeather@clinic-mail.org",
+           "sex": "Zorblax", "birth_date": "1931-07-19", "phone": "(217) 555-0188",
+           "mother_maiden_name": "Ravensworth", "name": "QUILLFEATHER, ZEPHYRINE \"ZEPH\" MD",
+           "address": "77 Wexley Harbor Rd Bldg 3, Cobblestone, VA 22401"}
+
+
+def secret_fragments() -> list[str]:
+    """Each value of SECRETS, and the forms cleaning makes of them."""
+    return [*SECRETS.values(), "219450172", "Quillfeather", "5550188", "Zephyrine", "ZEPH",
+            "Q413", "WEXLEY", "22401", "COBBLESTONE"]

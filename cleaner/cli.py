@@ -5,7 +5,9 @@ from __future__ import annotations
 import argparse
 import contextlib
 import os
+import shutil
 import sys
+import tempfile
 from collections.abc import Sequence
 from pathlib import Path
 
@@ -15,7 +17,23 @@ from cleaner.rules import RulesError
 
 
 def _serve(args: argparse.Namespace) -> int:
+    # Each worker counts into files in this folder, so that a scrape answered by
+    # any one of them reports all. It must be named before prometheus-client is
+    # first imported, which the app does.
+    own_folder = None
+    if not os.environ.get("PROMETHEUS_MULTIPROC_DIR"):
+        own_folder = os.environ["PROMETHEUS_MULTIPROC_DIR"] = tempfile.mkdtemp(
+            prefix="cleaner-metrics-")
+    try:
+        return _run_server(args)
+    finally:
+        if own_folder:
+            shutil.rmtree(own_folder, ignore_errors=True)
+
+
+def _run_server(args: argparse.Namespace) -> int:
     from gunicorn.app.base import BaseApplication
+    from prometheus_client import multiprocess
 
     from cleaner.web import create_app
 
@@ -33,6 +51,9 @@ def _serve(args: argparse.Namespace) -> int:
         def load(self):
             return application
 
+    def forget_worker(server, worker) -> None:
+        multiprocess.mark_process_dead(worker.pid)
+
     try:
         application = create_app(Config.from_env())
     except (RulesError, ValueError) as exc:
@@ -41,7 +62,7 @@ def _serve(args: argparse.Namespace) -> int:
     Server({"bind": f"{args.host}:{args.port}", "workers": args.workers,
             "worker_class": "sync", "timeout": args.timeout, "graceful_timeout": 20,
             "proc_name": "demographic-cleaner", "accesslog": None, "errorlog": "-",
-            "loglevel": "warning"}).run()
+            "loglevel": "warning", "child_exit": forget_worker}).run()
     return 0
 
 

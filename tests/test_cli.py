@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 import signal
 import socket
 import subprocess
@@ -60,6 +61,26 @@ def test_serve_answers_and_stops_gracefully_on_sigterm(service):
     assert body["record"]["sex"]["value"] == "female"
     process.send_signal(signal.SIGTERM)
     assert process.wait(timeout=60) == 0
+
+
+def test_serve_sums_the_metrics_of_its_workers_and_sends_no_version(service):
+    process, base = service
+    body = json.dumps({"record": {"sex": "F"}}).encode()
+    for _ in range(12):
+        request = urllib.request.Request(f"{base}/v1/clean", data=body, method="POST",
+                                         headers={"Content-Type": "application/json"})
+        with urllib.request.urlopen(request, timeout=10) as response:
+            assert response.headers["Cache-Control"] == "no-store"
+            assert response.headers["X-Content-Type-Options"] == "nosniff"
+            # The server may name itself, never its version.
+            assert not any(ch.isdigit() for ch in response.headers.get("Server", ""))
+    counted = set()
+    for _ in range(6):   # whichever worker answers the scrape reports both
+        with urllib.request.urlopen(f"{base}/metrics", timeout=10) as response:
+            text = response.read().decode()
+        counted.add(re.search(r'^cleaner_requests_total\{route="/v1/clean",status="200"\} (\S+)$',
+                              text, re.M)[1])
+    assert counted == {"12.0"}
 
 
 def test_serve_refuses_to_start_on_broken_rules(tmp_path):

@@ -35,7 +35,7 @@ def _run_server(args: argparse.Namespace) -> int:
     from gunicorn.app.base import BaseApplication
     from prometheus_client import multiprocess
 
-    from cleaner.web import create_app
+    from cleaner.web import create_app, metrics
 
     class Server(BaseApplication):
         """Gunicorn run in this process, so SIGTERM to it stops the service gracefully."""
@@ -54,6 +54,9 @@ def _run_server(args: argparse.Namespace) -> int:
     def forget_worker(server, worker) -> None:
         multiprocess.mark_process_dead(worker.pid)
 
+    def push_counts(server, worker) -> None:
+        metrics.pending.push()   # what a stopping worker counted since its last push
+
     try:
         application = create_app(Config.from_env())
     except (RulesError, ValueError) as exc:
@@ -62,7 +65,7 @@ def _run_server(args: argparse.Namespace) -> int:
     Server({"bind": f"{args.host}:{args.port}", "workers": args.workers,
             "worker_class": "sync", "timeout": args.timeout, "graceful_timeout": 20,
             "proc_name": "demographic-cleaner", "accesslog": None, "errorlog": "-",
-            "loglevel": "warning", "child_exit": forget_worker}).run()
+            "loglevel": "warning", "child_exit": forget_worker, "worker_exit": push_counts}).run()
     return 0
 
 

@@ -74,13 +74,21 @@ def test_serve_sums_the_metrics_of_its_workers_and_sends_no_version(service):
             assert response.headers["X-Content-Type-Options"] == "nosniff"
             # The server may name itself, never its version.
             assert not any(ch.isdigit() for ch in response.headers.get("Server", ""))
-    counted = set()
-    for _ in range(6):   # whichever worker answers the scrape reports both
+    # Whichever worker answers a scrape reports both, once each has pushed its
+    # counts (at most a second after its requests).
+    deadline = time.monotonic() + 30
+    while True:
         with urllib.request.urlopen(f"{base}/metrics", timeout=10) as response:
-            text = response.read().decode()
-        counted.add(re.search(r'^cleaner_requests_total\{route="/v1/clean",status="200"\} (\S+)$',
-                              text, re.M)[1])
-    assert counted == {"12.0"}
+            counted = re.search(r'^cleaner_requests_total\{route="/v1/clean",status="200"\} (\S+)$',
+                                response.read().decode(), re.M)
+        if counted and counted[1] == "12.0" or time.monotonic() > deadline:
+            break
+        time.sleep(0.2)
+    assert counted and counted[1] == "12.0"
+    for _ in range(4):
+        with urllib.request.urlopen(f"{base}/metrics", timeout=10) as response:
+            assert 'cleaner_requests_total{route="/v1/clean",status="200"} 12.0' \
+                in response.read().decode()
 
 
 def test_serve_refuses_to_start_on_broken_rules(tmp_path):

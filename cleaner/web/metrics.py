@@ -9,6 +9,7 @@ worker answers a scrape reports the whole service."""
 from __future__ import annotations
 
 import os
+import threading
 import time
 from collections import Counter as Tally
 
@@ -19,8 +20,9 @@ from prometheus_client import (CONTENT_TYPE_LATEST, REGISTRY, CollectorRegistry,
 from cleaner.batch import Summary
 
 MULTIPROCESS_DIR = "PROMETHEUS_MULTIPROC_DIR"
-# Code counts reach the shared store at most this often: a request raises
-# about twenty, and each write to the store costs a microsecond or two.
+# Counts reach the shared store from a thread of each process, at most this
+# late: a request raises about twenty, and each write to the store costs a
+# microsecond or two of the request it would otherwise be made in.
 PUSH_SECONDS = 1.0
 
 REQUESTS = Counter("cleaner_requests_total", "Requests answered, by declared route and status.",
@@ -36,39 +38,58 @@ CHANGES = Counter("cleaner_changes_total", "Changes made, by reason code.", ["co
 FLAGS = Counter("cleaner_flags_total", "Flags raised, by code.", ["code"])
 
 
-class CodeCounts:
-    """This process's change and flag counts not yet written to the store."""
+class PendingCounts:
+    """This process's counts not yet in the store, and the thread that moves them."""
 
     def __init__(self) -> None:
+        self.lock = threading.Lock()
+        self.requests: Tally = Tally()
+        self.records = self.errors = 0
         self.changes: Tally = Tally()
         self.flags: Tally = Tally()
-        self.pushed_at = time.monotonic()
+        self.pusher_pid = 0   # the process the pushing thread runs in; a forked worker starts its own
 
-    def add(self, summary: Summary) -> None:
-        self.changes.update(summary.changes)
-        self.flags.update(summary.flags)
-        if time.monotonic() - self.pushed_at >= PUSH_SECONDS:
+    def add(self, route: str, status: int, summary: Summary | None) -> None:
+        with self.lock:
+            self.requests[route, status] += 1
+            if summary is not None:
+                self.records += summary.rows
+                self.errors += summary.errors
+                self.changes.update(summary.changes)
+                self.flags.update(summary.flags)
+        if self.pusher_pid != os.getpid():
+            self.pusher_pid = os.getpid()
+            threading.Thread(target=self._push_forever, name="metrics-push",
+                             daemon=True).start()
+
+    def _push_forever(self) -> None:
+        while True:
+            time.sleep(PUSH_SECONDS)
             self.push()
 
     def push(self) -> None:
-        for metric, counts in ((CHANGES, self.changes), (FLAGS, self.flags)):
+        with self.lock:
+            requests, self.requests = self.requests, Tally()
+            records, errors, self.records, self.errors = self.records, self.errors, 0, 0
+            changes, self.changes = self.changes, Tally()
+            flags, self.flags = self.flags, Tally()
+        for (route, status), count in requests.items():
+            REQUESTS.labels(route, str(status)).inc(count)
+        if records:
+            RECORDS.inc(records)
+        if errors:
+            RECORD_ERRORS.inc(errors)
+        for metric, counts in ((CHANGES, changes), (FLAGS, flags)):
             for code, count in counts.items():
                 metric.labels(code).inc(count)
-            counts.clear()
-        self.pushed_at = time.monotonic()
 
 
-_pending = CodeCounts()
+pending = PendingCounts()
 
 
 def record(route: str, status: int, seconds: float, summary: Summary | None) -> None:
-    REQUESTS.labels(route, str(status)).inc()
     DURATION.labels(route).observe(seconds)
-    if summary is not None and summary.rows:
-        RECORDS.inc(summary.rows)
-        if summary.errors:
-            RECORD_ERRORS.inc(summary.errors)
-        _pending.add(summary)
+    pending.add(route, status, summary)
 
 
 bp = Blueprint("metrics", __name__)
@@ -76,7 +97,7 @@ bp = Blueprint("metrics", __name__)
 
 @bp.get("/metrics")
 def metrics():
-    _pending.push()
+    pending.push()
     if os.environ.get(MULTIPROCESS_DIR):
         registry = CollectorRegistry()
         multiprocess.MultiProcessCollector(registry)

@@ -24,10 +24,13 @@ def _serve(args: argparse.Namespace) -> int:
     if not os.environ.get("PROMETHEUS_MULTIPROC_DIR"):
         own_folder = os.environ["PROMETHEUS_MULTIPROC_DIR"] = tempfile.mkdtemp(
             prefix="cleaner-metrics-")
+    master = os.getpid()
     try:
         return _run_server(args)
     finally:
-        if own_folder:
+        # Workers are forked inside _run_server and leave through here too:
+        # only the master, at the end, may remove what they all write to.
+        if own_folder and os.getpid() == master:
             shutil.rmtree(own_folder, ignore_errors=True)
 
 

@@ -46,9 +46,14 @@ def service():
         wait_until_up(f"http://127.0.0.1:{port}/healthz", process)
         yield process, f"http://127.0.0.1:{port}"
     finally:
+        # SIGTERM, so the master stops its workers and removes its metrics folder.
         if process.poll() is None:
+            process.terminate()
+        try:
+            process.communicate(timeout=30)
+        except subprocess.TimeoutExpired:
             process.kill()
-        process.communicate(timeout=30)
+            process.communicate(timeout=30)
 
 
 def test_serve_answers_and_stops_gracefully_on_sigterm(service):

@@ -7,7 +7,7 @@ PIP    := $(BIN)/python -m pip install --quiet --disable-pip-version-check -c co
 HOST   ?= 127.0.0.1
 PORT   ?= 8080
 
-.PHONY: run test install check-rules bench
+.PHONY: run test install check-rules bench soak fuzz
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -36,3 +36,12 @@ check-rules: $(VENV)/.installed-run
 bench: $(VENV)/.installed-test
 	command -v wrk >/dev/null || apt-get install -y -q wrk >/dev/null 2>&1 || true
 	$(BIN)/python bench/run.py
+
+# A minute of mixed traffic on cleaner serve: errors, latency, and whether the
+# workers' memory holds steady (SOAK_SECONDS=15 make soak for a short run).
+soak: $(VENV)/.installed-test
+	$(BIN)/python bench/soak.py
+
+# The contract and property tests with many more examples than make test runs.
+fuzz: $(VENV)/.installed-test
+	CLEANER_FUZZ_EXAMPLES=1000 $(BIN)/python -m pytest tests/test_contract_fuzz.py tests/test_properties.py

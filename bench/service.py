@@ -62,13 +62,13 @@ def in_process() -> dict:
             "ratio": min(naive) / min(ours)}
 
 
-def _free_port() -> int:
+def free_port() -> int:
     with socket.socket() as probe:
         probe.bind(("127.0.0.1", 0))
         return probe.getsockname()[1]
 
 
-def _workers(master: int) -> list[Path]:
+def workers(master: int) -> list[Path]:
     """The /proc folders of the master's child processes (gunicorn's workers)."""
     found = []
     for status in Path("/proc").glob("[0-9]*/status"):
@@ -81,18 +81,20 @@ def _workers(master: int) -> list[Path]:
     return found
 
 
+def rss_mib(worker: Path) -> float:
+    """The resident memory of the process whose /proc folder this is."""
+    rss = re.search(r"^VmRSS:\s+(\d+) kB", (worker / "status").read_text(), re.M)
+    return int(rss[1]) / 1024 if rss else 0
+
+
 def _worker_rss_mib(master: int) -> list[float]:
-    sizes = []
-    for worker in _workers(master):
-        rss = re.search(r"^VmRSS:\s+(\d+) kB", (worker / "status").read_text(), re.M)
-        sizes.append(int(rss[1]) / 1024 if rss else 0)
-    return sorted(sizes)
+    return sorted(rss_mib(worker) for worker in workers(master))
 
 
 def _workers_cpu_seconds(master: int) -> float:
     """User and system time of the workers: what the app and the server spend,
     without the load generator that shares the machine."""
-    ticks = sum(int(field) for worker in _workers(master)
+    ticks = sum(int(field) for worker in workers(master)
                 for field in (worker / "stat").read_text().rsplit(")", 1)[1].split()[11:13])
     return ticks / os.sysconf("SC_CLK_TCK")
 
@@ -159,20 +161,20 @@ def _python_client(url: str, bodies: list[str], first: int, seconds: int) -> dic
 @contextlib.contextmanager
 def _server(command: Callable[[int], list[str]], cwd: Path):
     """The command's server on a free port: yields (url of /v1/clean, master pid)."""
-    port = _free_port()
+    port = free_port()
     process = subprocess.Popen(command(port), cwd=cwd,
                                stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
                                start_new_session=True)
     try:
         url = f"http://127.0.0.1:{port}/v1/clean"
-        _wait_until_answering(url, process)
+        wait_until_answering(url, process)
         yield url, process.pid
     finally:
         os.killpg(process.pid, signal.SIGTERM)
         process.wait(timeout=30)
 
 
-def _wait_until_answering(url: str, process: subprocess.Popen) -> None:
+def wait_until_answering(url: str, process: subprocess.Popen) -> None:
     body = json.dumps({"record": {"sex": "F"}}).encode()
     deadline = time.monotonic() + 60
     while time.monotonic() < deadline:

@@ -181,6 +181,10 @@ class Summary:
         self.flags.update(row.flags)
         self.filled.update(row.filled)
 
+    def totals(self) -> tuple[int, int, int]:
+        """Records, changes and flags."""
+        return self.rows, sum(self.changes.values()), sum(self.flags.values())
+
     def as_json(self) -> dict[str, Any]:
         return {"rows": self.rows, "rows_changed": self.rows_changed,
                 "rows_flagged": self.rows_flagged, "errors": self.errors,

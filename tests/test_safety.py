@@ -211,3 +211,19 @@ def test_a_hash_file_with_a_bad_line_stops_start_up_without_echoing_it(tmp_path)
     with pytest.raises(ValueError, match="line 1") as caught:
         Config(api_key_hashes_file=str(listed)).checked()
     assert KEY not in str(caught.value)
+
+
+def test_durations_reach_the_histogram_as_observing_each_would():
+    from prometheus_client import REGISTRY
+
+    from cleaner.web import metrics
+    route = "/test/histogram"
+    for seconds in (0.0005, 0.001, 0.003, 100.0):
+        metrics.pending.add(route, 200, seconds, None)
+    metrics.pending.push()
+
+    def sample(suffix, **labels):
+        return REGISTRY.get_sample_value(f"cleaner_request_duration_seconds_{suffix}",
+                                         {"route": route, **labels})
+    assert [sample("bucket", le=le) for le in ("0.001", "0.005", "60.0", "+Inf")] == [2, 3, 3, 4]
+    assert sample("count") == 4 and sample("sum") == pytest.approx(100.0045)

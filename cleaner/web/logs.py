@@ -21,12 +21,11 @@ from typing import Any
 
 import orjson
 from flask import Flask, request
-from werkzeug.wsgi import ClosingIterator
 
 from cleaner.web import metrics
 
 REQUEST_ID_KEY = "cleaner.request_id"   # WSGI environ keys the views and problems read
-SUMMARY_KEY = "cleaner.summary"         # and write: the batch.Summary of what was cleaned
+COUNTS_KEY = "cleaner.counts"           # and write: a metrics.Counts of what was cleaned
 _ROUTE_KEY = "cleaner.route"
 _NO_ROUTE = "(no route)"
 
@@ -100,18 +99,36 @@ class RequestEnvelope:
             route = environ.get(_ROUTE_KEY, _NO_ROUTE)
             status = int(sent_status[0].split(" ", 1)[0]) if sent_status else 500
             seconds = time.perf_counter() - started
-            summary = environ.get(SUMMARY_KEY)
-            metrics.record(route, status, seconds, summary)
+            counts = environ.get(COUNTS_KEY)
+            metrics.pending.add(route, status, seconds, counts)
             if self.logger.isEnabledFor(logging.INFO):
-                counts = {} if summary is None else {
-                    "records": summary.rows, "changes": sum(summary.changes.values()),
-                    "flags": sum(summary.flags.values())}
+                totals = {} if counts is None else dict(zip(("records", "changes", "flags"),
+                                                            counts.totals()))
                 self.log.write_line("info", "request", {
                     "request_id": request_id, "method": environ.get("REQUEST_METHOD"),
                     "route": route, "status": status,
-                    "duration_ms": round(seconds * 1000, 3), **counts})
+                    "duration_ms": round(seconds * 1000, 3), **totals})
 
-        return ClosingIterator(self.app(environ, enveloped_start), finish)
+        return _Finishing(self.app(environ, enveloped_start), finish)
+
+
+class _Finishing:
+    """The reply's body, with `finish` run once the server closes it."""
+    __slots__ = ("body", "finish")
+
+    def __init__(self, body: Iterable[bytes], finish: Callable[[], None]):
+        self.body, self.finish = body, finish
+
+    def __iter__(self):
+        return iter(self.body)
+
+    def close(self) -> None:
+        try:
+            close = getattr(self.body, "close", None)
+            if close is not None:
+                close()
+        finally:
+            self.finish()
 
 
 def configure(app: Flask, level: str) -> None:

@@ -3,10 +3,21 @@ every code listed in rules/ must be emitted by at least one test."""
 
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
+import os
 import shutil
+import signal
+import socket
+import subprocess
+import sys
+import time
+import urllib.request
+from collections.abc import Iterator
+from pathlib import Path
 
 import pytest
+from hypothesis import strategies as st
 
 import cleaner
 from cleaner import engine
@@ -104,3 +115,63 @@ def secret_fragments() -> list[str]:
     """Each value of SECRETS, and the forms cleaning makes of them."""
     return [*SECRETS.values(), "219450172", "Quillfeather", "5550188", "Zephyrine", "ZEPH",
             "Q413", "WEXLEY", "22401", "COBBLESTONE"]
+
+
+# Any JSON value (no NaN or infinity, which JSON has not), nested a little.
+json_values = st.recursive(
+    st.none() | st.booleans() | st.integers() | st.floats(allow_nan=False, allow_infinity=False)
+    | st.text(), lambda inner: st.lists(inner, max_size=4) | st.dictionaries(st.text(), inner,
+                                                                             max_size=4),
+    max_leaves=12)
+
+
+# --- a running `cleaner serve` -----------------------------------------------------
+
+COMMAND = [sys.executable, "-m", "cleaner.cli"]
+WORKERS = 2
+STOP_SECONDS = 30.0
+
+
+def free_port() -> int:
+    with socket.socket() as probe:
+        probe.bind(("127.0.0.1", 0))
+        return probe.getsockname()[1]
+
+
+def wait_until_up(url: str, process: subprocess.Popen, seconds: float = 60) -> None:
+    deadline = time.monotonic() + seconds
+    while time.monotonic() < deadline:
+        if process.poll() is not None:
+            raise AssertionError(f"the service exited with {process.returncode}")
+        try:
+            with urllib.request.urlopen(url, timeout=2):
+                return
+        except OSError:
+            time.sleep(0.2)
+    raise AssertionError("the service did not come up")
+
+
+@contextlib.contextmanager
+def serving(folder: Path, *options: str) -> Iterator[tuple[subprocess.Popen, int, Path]]:
+    """`cleaner serve` with WORKERS workers on a free loopback port, up and
+    answering: (its process, its port, its log file)."""
+    port = free_port()
+    log = folder / "service.log"
+    with log.open("wb") as sink:
+        # The log goes to a file: a pipe nobody reads fills up and stalls the
+        # workers. Its own session lets teardown reach workers a fault left behind.
+        process = subprocess.Popen([*COMMAND, "serve", "--port", str(port),
+                                    "--workers", str(WORKERS), *options],
+                                   stdout=sink, stderr=subprocess.STDOUT, start_new_session=True)
+    try:
+        wait_until_up(f"http://127.0.0.1:{port}/healthz", process)
+        yield process, port, log
+    finally:
+        if process.poll() is None:
+            # Stopped, not killed: a killed master leaves its metrics folder behind.
+            process.terminate()
+            with contextlib.suppress(subprocess.TimeoutExpired):
+                process.wait(timeout=STOP_SECONDS)
+        with contextlib.suppress(ProcessLookupError):
+            os.killpg(process.pid, signal.SIGKILL)   # whatever a fault left running
+        process.wait(timeout=STOP_SECONDS)

@@ -5,55 +5,19 @@ from __future__ import annotations
 import json
 import re
 import signal
-import socket
 import subprocess
-import sys
 import time
 import urllib.request
 
 import pytest
 
 from cleaner.cli import main
-
-COMMAND = [sys.executable, "-m", "cleaner.cli"]
-
-
-def free_port() -> int:
-    with socket.socket() as probe:
-        probe.bind(("127.0.0.1", 0))
-        return probe.getsockname()[1]
-
-
-def wait_until_up(url: str, process: subprocess.Popen, seconds: float = 60) -> None:
-    deadline = time.monotonic() + seconds
-    while time.monotonic() < deadline:
-        if process.poll() is not None:
-            raise AssertionError(f"the service exited with {process.returncode}")
-        try:
-            with urllib.request.urlopen(url, timeout=2):
-                return
-        except OSError:
-            time.sleep(0.2)
-    raise AssertionError("the service did not come up")
-
+from conftest import COMMAND, free_port, serving
 
 @pytest.fixture
-def service():
-    port = free_port()
-    process = subprocess.Popen([*COMMAND, "serve", "--port", str(port), "--workers", "2"],
-                               stdout=subprocess.PIPE, stderr=subprocess.PIPE)
-    try:
-        wait_until_up(f"http://127.0.0.1:{port}/healthz", process)
+def service(tmp_path):
+    with serving(tmp_path) as (process, port, _):
         yield process, f"http://127.0.0.1:{port}"
-    finally:
-        # SIGTERM, so the master stops its workers and removes its metrics folder.
-        if process.poll() is None:
-            process.terminate()
-        try:
-            process.communicate(timeout=30)
-        except subprocess.TimeoutExpired:
-            process.kill()
-            process.communicate(timeout=30)
 
 
 def test_serve_answers_and_stops_gracefully_on_sigterm(service):

@@ -6,8 +6,6 @@ and body. `make test` runs a few examples per operation; `make fuzz` many."""
 from __future__ import annotations
 
 import os
-import subprocess
-import sys
 from pathlib import Path
 
 import pytest
@@ -20,7 +18,7 @@ from schemathesis.specs.openapi.checks import (content_type_conformance,
                                                response_schema_conformance,
                                                status_code_conformance)
 
-from test_cli import free_port, wait_until_up
+from conftest import serving
 
 SPEC_PATH = Path(__file__).parent.parent / "openapi.yaml"
 EXAMPLES = int(os.environ.get("CLEANER_FUZZ_EXAMPLES", "30"))
@@ -37,17 +35,9 @@ OPERATIONS = [result.ok() for result in SCHEMA.get_all_operations()]
 
 
 @pytest.fixture(scope="module")
-def base_url():
-    port = free_port()
-    process = subprocess.Popen([sys.executable, "-m", "cleaner.cli", "serve", "--port", str(port),
-                                "--workers", "2"],
-                               stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
-    try:
-        wait_until_up(f"http://127.0.0.1:{port}/healthz", process)
+def base_url(tmp_path_factory):
+    with serving(tmp_path_factory.mktemp("served")) as (_, port, _):
         yield f"http://127.0.0.1:{port}"
-    finally:
-        process.terminate()
-        process.wait(timeout=60)
 
 
 # Requests that break the document, for the operations that take something to break.

@@ -23,9 +23,8 @@ from pathlib import Path
 
 import pytest
 
-from test_cli import COMMAND, free_port, wait_until_up
+from conftest import WORKERS, serving
 
-WORKERS = 2
 # Every wait is bounded, and long enough for a loaded two-core machine: what
 # the tests check is what happens, never how fast.
 PATIENCE = 10.0
@@ -129,28 +128,10 @@ class Server:
 
 @contextlib.contextmanager
 def running(folder: Path, *options: str):
-    port = free_port()
-    log = folder / "service.log"
-    with log.open("wb") as sink:
-        # The log goes to a file: a pipe nobody reads fills up and stalls the
-        # workers. Its own session lets teardown reach workers a fault left behind.
-        process = subprocess.Popen([*COMMAND, "serve", "--port", str(port),
-                                    "--workers", str(WORKERS), *options],
-                                   stdout=sink, stderr=subprocess.STDOUT, start_new_session=True)
-    served = Server(process, port, log)
-    try:
-        wait_until_up(f"http://127.0.0.1:{port}/healthz", process)
+    with serving(folder, *options) as (process, port, log):
+        served = Server(process, port, log)
         wait_until(lambda: len(served.workers()) == WORKERS, "the workers did not all start")
         yield served
-    finally:
-        if process.poll() is None:
-            # Stopped, not killed: a killed master leaves its metrics folder behind.
-            process.terminate()
-            with contextlib.suppress(subprocess.TimeoutExpired):
-                process.wait(timeout=PATIENCE)
-        with contextlib.suppress(ProcessLookupError):
-            os.killpg(process.pid, signal.SIGKILL)   # whatever a fault left running
-        process.wait(timeout=PATIENCE)
 
 
 @pytest.fixture

@@ -19,7 +19,7 @@ from werkzeug.wrappers import Request
 
 import cleaner
 from cleaner.web import create_app
-from conftest import SECRETS
+from conftest import SECRETS, json_values
 
 SPEC_PATH = Path(__file__).parent.parent / "openapi.yaml"
 SPEC = OpenAPI.from_file_path(str(SPEC_PATH), config=OpenAPIConfig(
@@ -213,11 +213,6 @@ def test_environment_sets_the_default_options(monkeypatch):
         create_app()
 
 
-json_values = st.recursive(
-    st.none() | st.booleans() | st.integers() | st.floats(allow_nan=False, allow_infinity=False)
-    | st.text(), lambda inner: st.lists(inner, max_size=4) | st.dictionaries(st.text(), inner,
-                                                                             max_size=4),
-    max_leaves=12)
 record_keys = st.sampled_from(["birth_date", "sex", "phone", "email", "ssn", "name", "given",
                                "family", "suffix", "address", "line1", "city", "state",
                                "postal_code", "country", "other"])

@@ -16,7 +16,7 @@ from hypothesis import strategies as st
 import cleaner
 from cleaner.engine import KINDS, KNOWN_KEYS
 from cleaner.web import create_app
-from conftest import REFERENCE_DATE
+from conftest import REFERENCE_DATE, json_values
 
 EXAMPLES = int(os.environ.get("CLEANER_FUZZ_EXAMPLES", "150"))
 OPTIONS = {"reference_date": REFERENCE_DATE}
@@ -24,10 +24,6 @@ OUTPUT_KEY = {key: kind.output_key for kind in KINDS for key in kind.input_keys}
 
 # --- arbitrary records --------------------------------------------------------------
 
-scalars = st.none() | st.booleans() | st.integers() | st.floats(allow_nan=False, allow_infinity=False) \
-    | st.text()
-json_values = st.recursive(scalars, lambda inner: st.lists(inner, max_size=3)
-                           | st.dictionaries(st.text(max_size=8), inner, max_size=3), max_leaves=8)
 records = st.dictionaries(st.sampled_from(sorted(KNOWN_KEYS)) | st.text(max_size=12),
                           json_values, max_size=8)
 

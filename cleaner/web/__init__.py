@@ -14,7 +14,7 @@ from cleaner.config import Config
 from cleaner.engine import load_rules
 from cleaner.options import Options
 from cleaner.rules import RuleBook
-from cleaner.web import access, api, logs, meta, metrics, problems
+from cleaner.web import access, api, fastlane, logs, meta, metrics, problems
 from cleaner.web.encoding import FastJSONProvider
 
 
@@ -50,9 +50,12 @@ def create_app(config: Config | Mapping[str, Any] | None = None) -> Flask:
                       max_batch_bytes=config.max_batch_bytes,
                       max_batch_records=config.max_batch_records)
     app.extensions["cleaner"] = service
+    digests = config.api_key_digests()
+    # Inside the envelope, so that its replies are logged and counted like any other.
+    app.wsgi_app = fastlane.CleanFastLane(app.wsgi_app, service, config.max_body_bytes, digests)
     logs.configure(app, config.log_level)
     problems.register(app)
-    access.register(app, config.api_key_digests())
+    access.register(app, digests)
     app.register_blueprint(api.bp)
     app.register_blueprint(meta.bp)
     app.register_blueprint(metrics.bp)

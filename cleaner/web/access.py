@@ -26,6 +26,12 @@ def key_matches(presented: str, digests: frozenset[bytes]) -> bool:
     return matched
 
 
+def authorised(authorization: str, digests: frozenset[bytes]) -> bool:
+    """Whether an Authorization header's value is a Bearer key the service knows."""
+    scheme, _, key = authorization.partition(" ")
+    return scheme.lower() == "bearer" and key_matches(key.strip(), digests)
+
+
 def register(app: Flask, digests: frozenset[bytes]) -> None:
     if not digests:
         return
@@ -34,8 +40,7 @@ def register(app: Flask, digests: frozenset[bytes]) -> None:
     def require_key():
         if request.endpoint in OPEN_ENDPOINTS:
             return None
-        scheme, _, key = request.headers.get("Authorization", "").partition(" ")
-        if scheme.lower() == "bearer" and key_matches(key.strip(), digests):
+        if authorised(request.headers.get("Authorization", ""), digests):
             return None
         # One answer for a missing header, another scheme and a wrong key alike.
         response = problem_response(401, "unauthorized", "Unauthorized",

@@ -46,12 +46,15 @@ def _clean_request(body: Any) -> tuple[Any, Any]:
     return body["record"], body.get("options")
 
 
+def clean_body(body: Any, service) -> dict[str, Any]:
+    """The reply to a parsed POST /v1/clean body; raises InvalidInput."""
+    record, options = _clean_request(body)
+    return clean_record(record, read_options(options, service.default_options()), service.rules)
+
+
 @bp.post("/clean")
 def clean_one():
-    service = current_app.extensions["cleaner"]
-    record, options = _clean_request(read_json_body())
-    result = clean_record(record, read_options(options, service.default_options()),
-                          service.rules)
+    result = clean_body(read_json_body(), current_app.extensions["cleaner"])
     request.environ[COUNTS_KEY] = OneRecord(result)
     return jsonify(result)
 

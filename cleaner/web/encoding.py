@@ -4,6 +4,7 @@ encoder, and a registration desk waits on every reply."""
 
 from __future__ import annotations
 
+import json
 from typing import Any
 
 import orjson
@@ -11,23 +12,24 @@ from flask import Response
 from flask.json.provider import DefaultJSONProvider
 
 
-class FastJSONProvider(DefaultJSONProvider):
+def encoded(obj: Any) -> bytes:
     """Compact, keys in the order built, UTF-8 as is. Whatever orjson refuses
     (an integer beyond 64 bits sent in an unknown key, say) goes to the
     standard encoder, so a value is never lost."""
+    try:
+        return orjson.dumps(obj)
+    except TypeError:
+        return json.dumps(obj, default=DefaultJSONProvider.default, ensure_ascii=False,
+                          separators=(",", ":")).encode()
 
+
+class FastJSONProvider(DefaultJSONProvider):
     sort_keys = False
     ensure_ascii = False
 
     def dumps(self, obj: Any, **kwargs: Any) -> str:
-        return self._encoded(obj).decode() if not kwargs else super().dumps(obj, **kwargs)
+        return encoded(obj).decode() if not kwargs else super().dumps(obj, **kwargs)
 
     def response(self, *args: Any, **kwargs: Any) -> Response:
-        body = self._encoded(self._prepare_response_obj(args, kwargs))
+        body = encoded(self._prepare_response_obj(args, kwargs))
         return self._app.response_class(body, mimetype=self.mimetype)
-
-    def _encoded(self, obj: Any) -> bytes:
-        try:
-            return orjson.dumps(obj)
-        except TypeError:
-            return super().dumps(obj, separators=(",", ":")).encode()

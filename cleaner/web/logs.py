@@ -26,7 +26,7 @@ from cleaner.web import metrics
 
 REQUEST_ID_KEY = "cleaner.request_id"   # WSGI environ keys the views and problems read
 COUNTS_KEY = "cleaner.counts"           # and write: a metrics.Counts of what was cleaned
-_ROUTE_KEY = "cleaner.route"
+ROUTE_KEY = "cleaner.route"
 _NO_ROUTE = "(no route)"
 
 _REQUEST_ID = re.compile(r"^[A-Za-z0-9._:-]{1,128}$")
@@ -96,7 +96,7 @@ class RequestEnvelope:
         def finish() -> None:
             # A streamed batch is done when the server closes its reply, not
             # when the view returns: its counts and duration are known only then.
-            route = environ.get(_ROUTE_KEY, _NO_ROUTE)
+            route = environ.get(ROUTE_KEY, _NO_ROUTE)
             status = int(sent_status[0].split(" ", 1)[0]) if sent_status else 500
             seconds = time.perf_counter() - started
             counts = environ.get(COUNTS_KEY)
@@ -143,4 +143,4 @@ def configure(app: Flask, level: str) -> None:
         # The route as declared (/v1/clean), never the path as sent, for the log line.
         rule = request.url_rule
         if rule is not None:
-            request.environ[_ROUTE_KEY] = rule.rule
+            request.environ[ROUTE_KEY] = rule.rule

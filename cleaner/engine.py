@@ -43,9 +43,12 @@ def _record_rules(data: dict[str, Any], context: LoadContext) -> RecordRules:
 
 
 def load_rules(directory: Path | str | None = None) -> RuleBook:
-    # The batch module reads records through this one, so it is imported here, not above.
+    # The batch and format modules read records through this one, so they are
+    # imported here, not above.
     from cleaner import batch
-    compilers = {"text": text.compile_rules, "record": _record_rules, "batch": batch.compile_rules}
+    from cleaner.formats import fhir, hl7v2
+    compilers = {"text": text.compile_rules, "record": _record_rules, "batch": batch.compile_rules,
+                 "fhir": fhir.compile_rules, "hl7v2": hl7v2.compile_rules}
     compilers.update((kind.name, kind.compile_rules) for kind in KINDS)
     return load(Path(directory) if directory else default_directory(), compilers)
 

@@ -22,7 +22,8 @@ from marshmallow import Schema, ValidationError, fields, validate, validates_sch
 from cleaner.trail import Reason
 
 SEVERITIES = ("info", "review", "invalid")
-CODE_PATTERN = r"^[a-z]+(\.[a-z0-9_]+)+$"
+# The first part is the kind: letters, then letters or digits ("hl7v2").
+CODE_PATTERN = r"^[a-z][a-z0-9]*(\.[a-z0-9_]+)+$"
 
 
 class RulesError(Exception):

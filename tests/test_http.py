@@ -116,8 +116,8 @@ def test_openapi_document_is_served_as_is(api):
     assert response.mimetype == "application/yaml"
     assert response.get_data(as_text=True) == SPEC_PATH.read_text(encoding="utf-8")
     assert set(yaml.safe_load(response.get_data())["paths"]) == {
-        "/v1/clean", "/v1/clean/batch", "/v1/reasons", "/healthz", "/openapi.yaml",
-        "/metrics"}
+        "/v1/clean", "/v1/clean/batch", "/v1/fhir/clean", "/v1/hl7v2/clean", "/v1/reasons",
+        "/healthz", "/openapi.yaml", "/metrics"}
 
 
 def test_every_route_is_documented(app):

@@ -27,6 +27,19 @@ def _csv(rows: list[dict]) -> str:
 
 
 _JSON = "application/json"
+_FHIR = "application/fhir+json"
+_FHIR_PATIENT = {
+    "resourceType": "Patient", "gender": SECRETS["sex"], "birthDate": SECRETS["birth_date"],
+    "name": [{"text": SECRETS["name"], "family": "Quillfeather", "given": ["Zephyrine"]}],
+    "telecom": [{"system": "phone", "value": SECRETS["phone"]},
+                {"system": "email", "value": SECRETS["email"]}],
+    "address": [{"line": ["77 Wexley Harbor Rd Bldg 3"], "city": "Cobblestone", "state": "VA",
+                 "postalCode": "22401"}]}
+_HL7V2_TYPE = "application/hl7-v2"
+_HL7V2 = ("MSH|^~\\&|DESK|CLINIC|||20261202||ADT^A04|M1|P|2.5.1\r"
+          f"PID|1||A1^^^CLINIC^MR||QUILLFEATHER^ZEPHYRINE^^^^^L||{SECRETS['birth_date']}|"
+          f"{SECRETS['sex']}|||77 Wexley Harbor Rd Bldg 3^^Cobblestone^VA^22401||"
+          f"{SECRETS['phone']}^PRN^PH~^NET^Internet^{SECRETS['email']}||||||{SECRETS['ssn']}\r")
 _LONG = "Ravensworth " * 50
 # (method, path, body, content type, status): every endpoint, and every way a
 # request can fail, each carrying patient values somewhere.
@@ -50,6 +63,21 @@ REQUESTS = [
     ("POST", "/v1/clean/batch", "\n".join([json.dumps(SECRETS), "Zorblax{", ""]),
      "application/x-ndjson", 200),
     ("POST", "/v1/clean/batch", json.dumps({"records": [SECRETS]}), "application/xml", 415),
+    ("POST", "/v1/fhir/clean", json.dumps(_FHIR_PATIENT), _FHIR, 200),
+    ("POST", "/v1/fhir/clean?country=Zorblax", json.dumps(_FHIR_PATIENT), _FHIR, 422),
+    ("POST", "/v1/fhir/clean", json.dumps({**_FHIR_PATIENT, "birthDate": [SECRETS["birth_date"]]}),
+     _FHIR, 422),
+    ("POST", "/v1/fhir/clean", json.dumps({**_FHIR_PATIENT, "resourceType": "Ravensworth"}),
+     _FHIR, 422),
+    ("POST", "/v1/fhir/clean", json.dumps({**_FHIR_PATIENT, "name": [{"family": _LONG}]}),
+     _FHIR, 422),
+    ("POST", "/v1/fhir/clean", json.dumps(_FHIR_PATIENT)[:-3], _FHIR, 400),
+    ("POST", "/v1/fhir/clean", json.dumps(_FHIR_PATIENT), "text/csv", 415),
+    ("POST", "/v1/hl7v2/clean", _HL7V2, _HL7V2_TYPE, 200),
+    ("POST", "/v1/hl7v2/clean?name_order=Zorblax", _HL7V2, _HL7V2_TYPE, 422),
+    ("POST", "/v1/hl7v2/clean", _HL7V2.replace("QUILLFEATHER", _LONG), _HL7V2_TYPE, 422),
+    ("POST", "/v1/hl7v2/clean", "Ravensworth|" + _HL7V2, _HL7V2_TYPE, 400),
+    ("POST", "/v1/hl7v2/clean", _HL7V2, "text/csv", 415),
     ("GET", "/v1/reasons", None, None, 200),
     ("GET", "/healthz", None, None, 200),
     ("GET", "/openapi.yaml", None, None, 200),
@@ -84,8 +112,14 @@ def test_no_patient_value_leaves_by_any_path(capsys, method, path, body, content
     lines = _log_lines(capsys.readouterr().err)
     assert [line["request_id"] for line in lines if line["event"] == "request"] == ["desk-7"]
     assert not _leaks(capsys.readouterr().err + json.dumps(lines))
-    if response.mimetype == "application/problem+json":
+    if response.mimetype == "application/problem+json" or response.mimetype == _FHIR \
+            and status != 200:
         assert not _leaks(response.get_data(as_text=True))
+    if response.mimetype == _FHIR and status == 200:
+        outcome = next(part["resource"] for part in response.get_json()["parameter"]
+                       if part["name"] == "outcome")
+        assert not _leaks(json.dumps(outcome))
+    assert not _leaks(str(response.headers))
     if path.startswith("/v1/clean") and status == 200:
         flags = re.findall(r'"message":\s*"([^"]*)"', response.get_data(as_text=True))
         assert not _leaks(" ".join(flags))
@@ -161,6 +195,7 @@ def locked():
     "Bearer Zephyrine-Quillfeather-1931", f"Token {KEY}",
 ])
 @pytest.mark.parametrize("method, path", [("POST", "/v1/clean"), ("POST", "/v1/clean/batch"),
+                                          ("POST", "/v1/fhir/clean"), ("POST", "/v1/hl7v2/clean"),
                                           ("GET", "/v1/reasons"), ("GET", "/metrics"),
                                           ("GET", "/openapi.yaml"), ("GET", "/v1/nowhere")])
 def test_with_keys_every_endpoint_but_health_needs_one(locked, authorization, method, path):

@@ -14,7 +14,7 @@ from cleaner.config import Config
 from cleaner.engine import load_rules
 from cleaner.options import Options
 from cleaner.rules import RuleBook
-from cleaner.web import access, api, fastlane, logs, meta, metrics, problems
+from cleaner.web import access, api, fastlane, fhir, hl7v2, logs, meta, metrics, problems
 from cleaner.web.encoding import FastJSONProvider
 
 
@@ -57,6 +57,8 @@ def create_app(config: Config | Mapping[str, Any] | None = None) -> Flask:
     problems.register(app)
     access.register(app, digests)
     app.register_blueprint(api.bp)
+    app.register_blueprint(fhir.bp)
+    app.register_blueprint(hl7v2.bp)
     app.register_blueprint(meta.bp)
     app.register_blueprint(metrics.bp)
     app.logger.info("rules loaded", extra={"rules_version": service.rules.version,

@@ -9,7 +9,7 @@ from flask import Blueprint, Response, current_app, jsonify, request, stream_wit
 
 from cleaner import batch
 from cleaner.engine import clean_record
-from cleaner.options import OPTION_NAMES, InvalidInput, read_options
+from cleaner.options import OPTION_NAMES, InvalidInput, Options, read_options
 from cleaner.web.logs import COUNTS_KEY
 from cleaner.web.problems import RequestProblem
 
@@ -87,19 +87,22 @@ _BATCH_MEDIA_TYPES = ("application/json", "text/csv", "application/x-ndjson")
 _MAP_PREFIX = "map."
 
 
-def _query_options_and_map() -> tuple[Any, dict[str, str]]:
-    """Options and the column mapping (map.<record key>=<column>) from the query."""
-    options, explicit = {}, {}
+def query_options(named_prefix: str = "") -> tuple[Options, dict[str, str]]:
+    """Options from the query, and the parameters named <named_prefix><key>
+    (the batch's column mapping, map.<record key>=<column>), by key."""
+    options, named = {}, {}
     for name, value in request.args.items():
         if name in OPTION_NAMES:
             options[name] = value
-        elif name.startswith(_MAP_PREFIX):
-            explicit[name[len(_MAP_PREFIX):]] = value
+        elif named_prefix and name.startswith(named_prefix):
+            named[name[len(named_prefix):]] = value
         else:
+            # Parameter names come from the caller and are not echoed back.
+            also = f" nor {named_prefix}<key>" if named_prefix else ""
             raise InvalidInput([("", "holds a query parameter that is neither an option "
-                                     f"({', '.join(OPTION_NAMES)}) nor map.<key>")])
+                                     f"({', '.join(OPTION_NAMES)}){also}")])
     service = current_app.extensions["cleaner"]
-    return read_options(options, service.default_options()), explicit
+    return read_options(options, service.default_options()), named
 
 
 @bp.post("/clean/batch")
@@ -111,7 +114,7 @@ def clean_batch():
     request.max_content_length = service.max_batch_bytes
     if request.mimetype == "application/json":
         return _batch_of_json(service)
-    options, explicit = _query_options_and_map()
+    options, explicit = query_options(_MAP_PREFIX)
     lines = batch.text_lines(request.stream)
     if request.mimetype == "text/csv":
         job = batch.CsvJob.start(lines, explicit, service.rules)   # a bad mapping is a 422 here

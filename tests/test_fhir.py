@@ -444,3 +444,49 @@ def test_an_address_line_that_is_only_an_extension_keeps_the_lines(client):
     patient, outcome = cleaned(client, {"resourceType": "Patient", "address": [address]})
     assert patient["address"] == [address], "the lines go to the engine together, or not at all"
     assert codes_at(outcome, "Patient.address[0].line") == ["fhir.list_kept"]
+
+
+# --- the specification's own examples ------------------------------------------------
+
+# Every example Patient of HL7 FHIR R4 (v4.0.1), as published in the FHIR
+# package hl7.fhir.r4.examples 4.0.1 (npm registry; CC0), unchanged.
+EXAMPLES = sorted((Path(__file__).parent / "reference" / "fhir_r4_examples").glob("Patient-*.json"))
+
+
+@pytest.mark.parametrize("path", EXAMPLES, ids=[path.stem for path in EXAMPLES])
+def test_the_specifications_example_patients_come_back_valid_and_settled(client, path):
+    sent = path.read_bytes()
+    assert is_valid(json.loads(sent)), "the schema copy takes the specification's example"
+    patient, outcome = cleaned(client, as_sent(sent))
+    back = as_sent(post(client, sent).data)["parameter"][0]["resource"]
+    for name, value in as_sent(sent).items():
+        if name not in TOUCHED:
+            assert orjson.dumps(back[name]) == orjson.dumps(value), name
+    for index, point in enumerate(patient.get("telecom", [])):
+        sent_point = json.loads(sent)["telecom"][index]
+        if point.get("value") != sent_point.get("value") and point.get("system") == "phone":
+            assert re.fullmatch(r"\+[1-9]\d{6,14}", point["value"])
+            assert "phones.invalid" not in codes_at(outcome, f"Patient.telecom[{index}].value")
+    again, _ = cleaned(client, patient)
+    assert again == patient
+
+
+def test_the_specifications_example_patient_keeps_what_is_already_standard(client):
+    """Patient-example: names, gender and birthDate (with its _birthDate
+    extension) are already in standard form; its Australian numbers are not
+    valid in the default region (US) and stay as written, flagged."""
+    sent = json.loads((EXAMPLES[0].parent / "Patient-example.json").read_bytes())
+    patient, outcome = cleaned(client, sent)
+    assert patient["name"] == sent["name"] and patient["gender"] == "male"
+    assert patient["birthDate"] == "1974-12-25" and patient["_birthDate"] == sent["_birthDate"]
+    assert patient["telecom"] == sent["telecom"]
+    assert codes_at(outcome, "Patient.telecom[1].value") == ["phones.invalid"]
+    with_region, _ = cleaned(client, sent, url=URL + "&country=AU")
+    assert with_region["telecom"][1]["value"] == "+61355556473"
+
+
+def test_an_address_that_cannot_be_read_into_parts_stays_as_written(client):
+    sent = json.loads((EXAMPLES[0].parent / "Patient-ch-example.json").read_bytes())
+    patient, outcome = cleaned(client, sent)
+    assert patient["address"] == sent["address"]
+    assert "addresses.unparsed" in codes_at(outcome, "Patient.address[0]")

@@ -248,6 +248,21 @@ def test_a_phone_that_cannot_be_cleaned_is_left_as_sent():
     assert codes(cleaned, "PID[1]-13[2]")[1] == ["phones.missing_area_code"]
 
 
+def test_a_number_its_region_does_not_have_keeps_its_written_form_and_no_change():
+    # (03) 5555 6473 is an Australian number; read in the default region (US)
+    # its E.164 form would be a number that does not exist.
+    cleaned = run(message(MSH, pid(f13="(03) 5555 6473^WPN^PH")))
+    assert field_of(cleaned.text, 13) == "(03) 5555 6473^WPN^PH"
+    assert codes(cleaned, "PID[1]-13[1]") == ([], ["phones.invalid"])
+
+
+def test_an_address_that_cannot_be_read_into_parts_is_left_as_sent():
+    cleaned = run(message(MSH + "||||||UNICODE UTF-8", pid(f11="马当路190号^^上海市^^200000")))
+    assert field_of(cleaned.text, 11) == "马当路190号^^上海市^^200000"
+    changes, flags = codes(cleaned)
+    assert changes == [] and "addresses.unparsed" in flags
+
+
 def test_the_country_option_reads_a_national_phone():
     cleaned = run(pid(f13="020 7946 0018^PRN^PH"), country="GB")
     assert field_of(cleaned.text, 13) == "+442079460018^PRN^PH"

@@ -320,6 +320,11 @@ def _clean_phone(findings: Findings, point: dict[str, Any], where: str, rules: F
         findings.keep_as_sent(place, "fhir.several_numbers_kept")
         return
     phone = phones[0] if phones else {}
+    if phones and not phone["valid"]:
+        # The number as sent still tells a person what was meant; an E.164
+        # form of a number its region does not have would not (flagged).
+        findings.keep_as_sent(place)
+        return
     extension = phone.get("extension")
     extensions = point.get("extension", [])
     carried = next((item for item in extensions if item.get("url") == rules.phone_extension_url),
@@ -376,6 +381,10 @@ def _clean_address(findings: Findings, address: dict[str, Any], where: str) -> N
     places = {f"address.{run.part}": run.place for run in runs["line"]}
     places.update((f"address.{part}", f"{where}.{name}") for name, part in _ADDRESS_PARTS.items())
     cleaned = findings.clean(record, _placer(places, where))["address"] or {}
+    if cleaned and not cleaned["valid"]:
+        # Not read into parts (flagged): the parts stay as a person wrote them.
+        findings.keep_as_sent(where)
+        return
     _write_list(findings, address, "line", where, runs["line"], cleaned)
     for name, part in _ADDRESS_PARTS.items():
         _write_scalar(findings, address, name, places[f"address.{part}"], cleaned.get(part))

@@ -403,6 +403,9 @@ def _address(segment: _Segment, piece: _Piece) -> None:
     if not record:
         return
     address = segment.clean(piece, record, _XAD)["address"] or {}
+    if address and not address["valid"]:
+        segment.findings.keep_as_sent(piece.place)   # not read into parts (flagged): as sent
+        return
     *parts, country = _XAD
     for element in parts:
         piece.put(element.component, address.get(element.key))
@@ -503,7 +506,8 @@ def _write_phone(segment: _Segment, piece: _Piece, sent: str, cleaned: list[dict
         return
     phone = cleaned[0]
     if not phone["valid"]:
-        return   # flagged, as sent
+        segment.findings.keep_as_sent(piece.place)   # flagged, as sent
+        return
     if from_group:
         parts = _group_parts(phone["e164"], phone["extension"])
         segment.findings.write(piece.place, sent, phone["e164"], _group_text(*parts),

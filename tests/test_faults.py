@@ -256,7 +256,9 @@ def test_d_workers_restarted_by_a_reload_count_and_log_like_the_first(server):
                "the reload did not replace the workers")
     answers = [server.clean(number) for number in range(6)]
     assert answers == [200] * 6
-    assert len(server.logged("/v1/clean")) == 6
+    # A request's line is written once its reply is closed, which may be just
+    # after the client has read it.
+    wait_until(lambda: len(server.logged("/v1/clean")) == 6, "the new workers did not log")
     assert server.request("GET", "/metrics")[0] == 200
     server.assert_log_holds_no_patient_data()
 

@@ -44,4 +44,5 @@ soak: $(VENV)/.installed-test
 
 # The contract and property tests with many more examples than make test runs.
 fuzz: $(VENV)/.installed-test
-	CLEANER_FUZZ_EXAMPLES=1000 $(BIN)/python -m pytest tests/test_contract_fuzz.py tests/test_properties.py
+	CLEANER_FUZZ_EXAMPLES=1000 $(BIN)/python -m pytest tests/test_contract_fuzz.py tests/test_properties.py \
+		tests/test_fastlane.py tests/test_fhir.py tests/test_hl7v2.py

@@ -118,6 +118,12 @@ def secret_fragments() -> list[str]:
 
 
 # Any JSON value (no NaN or infinity, which JSON has not), nested a little.
+def fuzz_examples(default: int) -> int:
+    """Examples for a property or fuzz test: `default` in make test, and
+    CLEANER_FUZZ_EXAMPLES (or a share of it) in make fuzz."""
+    return int(os.environ.get("CLEANER_FUZZ_EXAMPLES", default))
+
+
 json_values = st.recursive(
     st.none() | st.booleans() | st.integers() | st.floats(allow_nan=False, allow_infinity=False)
     | st.text(), lambda inner: st.lists(inner, max_size=4) | st.dictionaries(st.text(), inner,

@@ -5,7 +5,6 @@ and body. `make test` runs a few examples per operation; `make fuzz` many."""
 
 from __future__ import annotations
 
-import os
 from pathlib import Path
 
 import pytest
@@ -18,10 +17,10 @@ from schemathesis.specs.openapi.checks import (content_type_conformance,
                                                response_schema_conformance,
                                                status_code_conformance)
 
-from conftest import serving
+from conftest import fuzz_examples, serving
 
 SPEC_PATH = Path(__file__).parent.parent / "openapi.yaml"
-EXAMPLES = int(os.environ.get("CLEANER_FUZZ_EXAMPLES", "30"))
+EXAMPLES = fuzz_examples(30)
 # What is checked of every answer. Not checked: that a request the document
 # allows is accepted (the service also refuses what is well-shaped but unknown,
 # a region "ZQ", with a 422 the document lists), nor that one it does not allow

@@ -7,7 +7,6 @@ cut short, over the limit)."""
 from __future__ import annotations
 
 import json
-import os
 
 import pytest
 from hypothesis import HealthCheck, given, settings
@@ -15,9 +14,9 @@ from hypothesis import strategies as st
 
 from cleaner.engine import KNOWN_KEYS
 from cleaner.web import create_app, fastlane
-from conftest import REFERENCE_DATE, json_values
+from conftest import REFERENCE_DATE, fuzz_examples, json_values
 
-EXAMPLES = int(os.environ.get("CLEANER_FUZZ_EXAMPLES", "150"))
+EXAMPLES = fuzz_examples(150)
 KEY = "fastlane-test-key"
 MAX_BODY_BYTES = 4096
 

@@ -20,7 +20,7 @@ from hypothesis import strategies as st
 from cleaner.formats import fhir
 from cleaner.options import InvalidInput, Options
 from cleaner.web import create_app
-from conftest import REFERENCE_DATE, SECRETS, json_values, secret_fragments
+from conftest import REFERENCE_DATE, SECRETS, fuzz_examples, json_values, secret_fragments
 
 SCHEMA = json.loads((Path(__file__).parent / "reference" / "fhir_r4_schema.json")
                     .read_text(encoding="utf-8"))
@@ -408,7 +408,8 @@ patients = st.fixed_dictionaries({"resourceType": st.just("Patient")}, optional=
     "extension": json_values, "contained": json_values, "photo": json_values})
 
 
-@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=fuzz_examples(60), deadline=None,
+          suppress_health_check=[HealthCheck.too_slow])
 @given(patients)
 def test_untouched_elements_never_move(rules, patient):
     sent = copy.deepcopy(patient)
@@ -425,7 +426,8 @@ def test_untouched_elements_never_move(rules, patient):
     conforms({"resourceType": "OperationOutcome", "issue": reply["parameter"][1]["resource"]["issue"]})
 
 
-@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=fuzz_examples(60), deadline=None,
+          suppress_health_check=[HealthCheck.too_slow])
 @given(st.one_of(json_values, patients, st.fixed_dictionaries(
     {"resourceType": st.sampled_from(["Patient", "Bundle"])},
     optional={"entry": json_values, "name": json_values, "telecom": json_values,

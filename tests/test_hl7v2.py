@@ -14,7 +14,7 @@ from cleaner.formats import hl7v2
 from cleaner.options import InvalidInput, read_options
 from cleaner.rules import RulesError
 from cleaner.web import create_app
-from conftest import REFERENCE_DATE, SECRETS, edit_rules, secret_fragments
+from conftest import REFERENCE_DATE, SECRETS, edit_rules, fuzz_examples, secret_fragments
 from reference import table
 
 MSH = "MSH|^~\\&|REGDESK|MAPLEFORD CLINIC|MPI|MAPLEFORD CLINIC|20261202093000||ADT^A04|MSG00017|P|2.5.1"
@@ -462,7 +462,8 @@ other_segment = st.builds(lambda name, fields: "|".join([name, *fields]),
 CLEANED_FIELDS = set(hl7v2._FIELDS)
 
 
-@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=fuzz_examples(150), deadline=None,
+          suppress_health_check=[HealthCheck.too_slow])
 @given(before=st.lists(other_segment, max_size=3), after=st.lists(other_segment, max_size=3),
        pid_fields=st.lists(field_text, min_size=1, max_size=22),
        end=st.sampled_from(["\r", "\n", "\r\n"]))
@@ -564,8 +565,8 @@ def test_no_patient_value_reaches_the_header_or_a_problem(client):
             assert fragment.lower() not in text.lower()
 
 
-@settings(max_examples=120, deadline=None, suppress_health_check=[HealthCheck.too_slow,
-                                                                   HealthCheck.function_scoped_fixture])
+@settings(max_examples=fuzz_examples(120), deadline=None,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
 @given(body=st.binary(max_size=300) | st.builds(
     lambda head, rest: (head + rest).encode("utf-8", "surrogatepass"),
     st.sampled_from(["MSH|^~\\&", "MSH|^~\\&#", "PID|", "MSH$*!@%", "MSH|^~\\&|||||||||||||||"]),

@@ -7,7 +7,6 @@ from __future__ import annotations
 
 import datetime as dt
 import json
-import os
 
 import pytest
 from hypothesis import HealthCheck, given, settings
@@ -16,9 +15,9 @@ from hypothesis import strategies as st
 import cleaner
 from cleaner.engine import KINDS, KNOWN_KEYS
 from cleaner.web import create_app
-from conftest import REFERENCE_DATE, json_values
+from conftest import REFERENCE_DATE, fuzz_examples, json_values
 
-EXAMPLES = int(os.environ.get("CLEANER_FUZZ_EXAMPLES", "150"))
+EXAMPLES = fuzz_examples(150)
 OPTIONS = {"reference_date": REFERENCE_DATE}
 OUTPUT_KEY = {key: kind.output_key for kind in KINDS for key in kind.input_keys}
 

@@ -93,6 +93,15 @@ def test_parts_are_cleaned_each_on_its_own_trail(clean):
     assert field_codes(body, "name")[1] == ["names.credentials_found"]
 
 
+def test_a_lookalike_among_letters_without_case_is_written_as_a_capital(clean):
+    # Found by the HL7 v2 property test: a small "o" written among Arabic and
+    # Thai letters read, when cleaned again, as a name typed in lower case.
+    once = clean({"family": "0\u0620\u0e01"})["record"]["name"]["family"]
+    assert once == "O\u0620\u0e01"
+    again = clean({"family": once})
+    assert again["record"]["name"]["family"] == once and again["changes"] == []
+
+
 def test_a_suffix_sent_apart_is_not_replaced_by_one_in_the_family_name(clean):
     name = clean({"family": "Okafor Jr", "suffix": "III"})["record"]["name"]
     assert parts(name) == {"family": "Okafor Jr", "suffix": "III"}

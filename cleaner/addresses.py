@@ -927,7 +927,10 @@ def clean_parts(raw: Mapping[str, Any], options: Options, rules: RuleBook) -> Ou
 
     for part, trail in list(trails.items()):
         sent = str(trail.value)
-        stages = normalise_stages(sent.replace(",", " ").strip())
+        upper, folded, tidied = normalise_stages(sent.replace(",", " ").strip())
+        # A part holds no comma, and folding can write one (a cedilla alone reads as ",").
+        stages = (upper, folded, punctuated(folded.replace(",", " ")) if "," in folded
+                  else tidied)
         if vocabulary.is_placeholder(sent, stages[2]):
             assembly.flags.append("addresses.placeholder")
             assembly.kind = "unparsed" if part == "line1" else assembly.kind

@@ -63,6 +63,14 @@ def test_units_are_kept_never_lost_or_absorbed_into_the_street(clean, value, lin
     assert address["components"]["street"] in ("HARBOR", "PINE")
 
 
+def test_a_comma_that_folding_writes_into_a_part_is_removed_like_a_typed_one(clean):
+    # Found by the HL7 v2 property test: a lone cedilla folds to ",", which was
+    # spaced like a typed comma and removed only when the value was cleaned again.
+    once = clean({"line2": "0\u00b80", "city": "Sa\u00b8o Paulo"})["record"]["address"]
+    assert (once["line2"], once["city"]) == ("0 0", "SA O PAULO")
+    assert clean({"line2": once["line2"], "city": once["city"]})["changes"] == []
+
+
 def test_a_line_the_tagger_cannot_label_is_still_read(clean):
     value = "77 HARBOR RD BLDG 3 RM 29 SPRINGFIELD IL 62704"
     assert bare_tag(value) == "RepeatedLabelError"

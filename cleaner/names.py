@@ -316,7 +316,10 @@ def tokenize(value: str, vocabulary: NameVocabulary) -> list[list[Word]]:
 
 
 def _single_case(value: str) -> bool:
-    return value.isupper() or value.islower()
+    # A value with no letter that has case (digits among Arabic or Thai letters)
+    # counts too: the letters its digits are repaired to are then cased like
+    # any others, and the cleaned value reads the same when cleaned again.
+    return value == value.upper() or value == value.lower()
 
 
 # --- group, order and assign ----------------------------------------------------
@@ -613,20 +616,15 @@ def repair_lookalikes(raw: str, vocabulary: NameVocabulary) -> str:
     the case of the letters beside them."""
     if raw.isalpha() or sum(ch.isalpha() for ch in raw) < 2:
         return raw
-    cased = [ch for ch in raw if ch.isupper() or ch.islower()]
+    letters = [ch for ch in raw if ch.isalpha()]
     repaired = []
     for index, ch in enumerate(raw):
         forms = vocabulary.lookalikes.get(ch)
         if forms is None:
             repaired.append(ch)
             continue
-        beside = [c for c in raw[max(index - 1, 0):index] + raw[index + 1:index + 2]
-                  if c.isupper() or c.islower()]
-        # Among letters that have no case (Arabic, Thai) the capital is written:
-        # a small letter alone would read as a name typed in lower case, and
-        # be capitalised when the cleaned value is cleaned again.
-        nearest = (beside or cased or ["A"])[0]
-        repaired.append(forms[0] if nearest.isupper() else forms[1])
+        beside = [c for c in raw[max(index - 1, 0):index] + raw[index + 1:index + 2] if c.isalpha()]
+        repaired.append(forms[0] if (beside or letters)[0].isupper() else forms[1])
     return "".join(repaired)
 
 

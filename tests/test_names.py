@@ -13,7 +13,7 @@ from nameparser import HumanName
 import cleaner
 from cleaner import engine, names
 from cleaner.rules import RulesError
-from conftest import assert_formed_text_is_tidy, edit_rules, field_codes
+from conftest import REFERENCE_DATE, assert_formed_text_is_tidy, edit_rules, field_codes, fuzz_examples
 
 
 def name_of(clean, value, **options):
@@ -93,9 +93,10 @@ def test_parts_are_cleaned_each_on_its_own_trail(clean):
     assert field_codes(body, "name")[1] == ["names.credentials_found"]
 
 
-def test_a_lookalike_among_letters_without_case_is_written_as_a_capital(clean):
-    # Found by the HL7 v2 property test: a small "o" written among Arabic and
-    # Thai letters read, when cleaned again, as a name typed in lower case.
+def test_digits_among_letters_without_case_are_cased_like_a_name_in_one_case(clean):
+    # Found by the HL7 v2 property test: "0" among Arabic and Thai letters was
+    # repaired to "o" but not capitalised, since the value as sent had no
+    # cased letter; cleaned again, it was.
     once = clean({"family": "0\u0620\u0e01"})["record"]["name"]["family"]
     assert once == "O\u0620\u0e01"
     again = clean({"family": once})
@@ -315,3 +316,31 @@ def test_the_word_caches_agree_with_a_cold_reading(value, order):
     for cache in WORD_CACHES:
         cache.cache_clear()
     assert cleaner.clean({"name": value}, options) == warm
+
+
+# Latin letters, digits typed for letters, letters that have no case (Arabic,
+# Thai, CJK), and the marks names carry; no quotes: a quoted word is a
+# nickname, and where one lands is read on the value as sent.
+_MIXED_SCRIPT = st.text(st.sampled_from("aoOlLsSbB0158 -.\u0620\u0e01\u4e2d\u00e9\u00c9\u00b8"),
+                        min_size=1, max_size=12)
+
+
+@settings(max_examples=fuzz_examples(300), deadline=None)
+@given(family=_MIXED_SCRIPT, given_name=_MIXED_SCRIPT, typed_in=st.sampled_from([str.upper,
+                                                                                  str.lower]))
+def test_a_cleaned_name_cleaned_again_is_unchanged(family, given_name, typed_in):
+    """For a name typed in one case style: case is judged on the value as
+    sent, so a part of a mixed-case name may keep a lower-case word that the
+    same word sent alone would have capitalised."""
+    options = {"reference_date": REFERENCE_DATE}
+    try:
+        once = cleaner.clean({"family": typed_in(family), "given": typed_in(given_name)}, options)
+    except cleaner.InvalidInput:
+        return
+    name = once["record"]["name"]
+    sent_again = {key: name[key] for key in ("given", "family") if name and name[key]}
+    if not sent_again:
+        return
+    again = cleaner.clean(sent_again, options)
+    assert {key: again["record"]["name"][key] for key in ("given", "family")} == \
+        {key: name[key] for key in ("given", "family")}

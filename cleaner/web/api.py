@@ -55,26 +55,28 @@ def clean_body(body: Any, service) -> dict[str, Any]:
 @bp.post("/clean")
 def clean_one():
     result = clean_body(read_json_body(), current_app.extensions["cleaner"])
-    request.environ[COUNTS_KEY] = OneRecord(result)
+    request.environ[COUNTS_KEY] = ListedCodes(result["changes"], result["flags"])
     return jsonify(result)
 
 
 _REASON, _CODE = operator.itemgetter("reason"), operator.itemgetter("code")
 
 
-class OneRecord:
-    """What the log line and the metrics count of one record: its codes as
-    listed, where a batch.Summary would cost more to build than the rest of
-    the request's bookkeeping together."""
-    __slots__ = ("changes", "flags")
-    rows, errors = 1, 0
+class ListedCodes:
+    """What the log line and the metrics count of one record, or of one FHIR
+    or HL7 v2 message (`rows` Patients or PID segments): its codes as listed,
+    where a batch.Summary would cost more to build than the rest of the
+    request's bookkeeping together."""
+    __slots__ = ("rows", "changes", "flags")
+    errors = 0
 
-    def __init__(self, result: dict[str, Any]):
-        self.changes = list(map(_REASON, result["changes"]))
-        self.flags = list(map(_CODE, result["flags"]))
+    def __init__(self, changes: list[dict[str, Any]], flags: list[dict[str, Any]], rows: int = 1):
+        self.rows = rows
+        self.changes = list(map(_REASON, changes))
+        self.flags = list(map(_CODE, flags))
 
     def totals(self) -> tuple[int, int, int]:
-        return 1, len(self.changes), len(self.flags)
+        return self.rows, len(self.changes), len(self.flags)
 
 
 def _summary() -> batch.Summary:

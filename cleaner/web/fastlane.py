@@ -40,7 +40,7 @@ class CleanFastLane:
             return self.app(environ, start_response)
         result, body = reply
         environ[logs.ROUTE_KEY] = ROUTE
-        environ[logs.COUNTS_KEY] = api.OneRecord(result)
+        environ[logs.COUNTS_KEY] = api.ListedCodes(result["changes"], result["flags"])
         start_response("200 OK", [("Content-Type", "application/json"),
                                   ("Content-Length", str(len(body)))])
         return [body]

@@ -9,14 +9,12 @@ so an untouched `valueDecimal: 1.50` does not come back as 1.5."""
 from __future__ import annotations
 
 import json
-from collections import Counter
 from typing import Any
 
 import orjson
 from flask import Blueprint, Response, current_app, request
 from werkzeug.exceptions import HTTPException
 
-from cleaner.batch import Summary
 from cleaner.formats import fhir
 from cleaner.options import InvalidInput
 from cleaner.web import api
@@ -101,7 +99,6 @@ def clean_resource():
         raise Refused(413, f"A Bundle holds at most {service.max_batch_records} Patients; "
                            "send more in several requests.")
     reply, findings = fhir.clean_resource(document, found, options, service.rules)
-    request.environ[COUNTS_KEY] = Summary(
-        rows=len(found), changes=Counter(change["reason"] for change in findings.changes),
-        flags=Counter(flag["code"] for flag in findings.flags))
+    request.environ[COUNTS_KEY] = api.ListedCodes(findings.changes, findings.flags,
+                                                  rows=len(found))
     return Response(orjson.dumps(reply), mimetype=MEDIA_TYPE)

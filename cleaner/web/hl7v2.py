@@ -18,21 +18,7 @@ MEDIA_TYPES = ("application/hl7-v2", "text/plain")
 SUMMARY_HEADER = "Cleaner-Summary"
 
 
-class MessageCounts:
-    """What the log line and the metrics count of one message (metrics.Counts):
-    each PID segment is one record."""
-    errors = 0
-
-    def __init__(self, cleaned: hl7v2.CleanedMessage):
-        self.rows = cleaned.pid_segments
-        self.changes = [change["reason"] for change in cleaned.findings.changes]
-        self.flags = [flag["code"] for flag in cleaned.findings.flags]
-
-    def totals(self) -> tuple[int, int, int]:
-        return self.rows, len(self.changes), len(self.flags)
-
-
-def summary_header(counts: MessageCounts, rules_version: str) -> str:
+def summary_header(counts: api.ListedCodes, rules_version: str) -> str:
     def codes(listed: list[str]) -> str:
         return "(" + " ".join(f'"{code}"' for code in dict.fromkeys(listed)) + ")"
     return (f"pid-segments={counts.rows}, changes={len(counts.changes)}, "
@@ -51,7 +37,8 @@ def clean_message():
         cleaned = hl7v2.clean_message(request.get_data(cache=False), options, service.rules)
     except hl7v2.NotHl7v2 as exc:
         raise RequestProblem(400, "malformed-hl7v2", "Not an HL7 v2 Message", str(exc)) from None
-    counts = request.environ[COUNTS_KEY] = MessageCounts(cleaned)
+    counts = request.environ[COUNTS_KEY] = api.ListedCodes(
+        cleaned.findings.changes, cleaned.findings.flags, rows=cleaned.pid_segments)
     if request.accept_mimetypes.best_match([request.mimetype, "application/json"]) \
             == "application/json":
         response = jsonify({"message": cleaned.text, **cleaned.findings.as_json()})

@@ -41,7 +41,7 @@ FLAGS = Counter("cleaner_flags_total", "Flags raised, by code.", ["code"])
 
 
 class Counts(Protocol):
-    """What a request cleaned: a batch.Summary, or api.OneRecord for one record.
+    """What a request cleaned: a batch.Summary, or api.ListedCodes for one record or message.
     `changes` and `flags` are codes, listed or counted (Counter.update takes both)."""
     rows: int
     errors: int

@@ -4,6 +4,8 @@ caches must be exactly the answer of a cold reading."""
 from __future__ import annotations
 
 import datetime as dt
+import importlib
+import pkgutil
 import sys
 from pathlib import Path
 
@@ -17,7 +19,10 @@ from cleaner.engine import clean_record, default_rules
 sys.path.insert(0, str(Path(__file__).parent.parent / "bench"))
 import corpus  # noqa: E402  (the benchmark's invented intake records)
 
-VALUE_CACHES = [member for module in (names, addresses, phones, dates)
+# A field kind grown into a package of stage modules keeps its caches in them.
+ADDRESS_STAGES = [importlib.import_module(f"cleaner.addresses.{found.name}")
+                  for found in pkgutil.iter_modules(addresses.__path__)]
+VALUE_CACHES = [member for module in (names, addresses, *ADDRESS_STAGES, phones, dates)
                 for member in vars(module).values() if hasattr(member, "cache_clear")]
 OPTIONS = cleaner.Options(reference_date=dt.date(2026, 12, 2))
 

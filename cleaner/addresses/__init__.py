@@ -20,7 +20,7 @@ from typing import Any
 from cleaner import text
 from cleaner.addresses.assemble import Assembly, assemble, empty_address, move_units
 from cleaner.addresses.delivery import read_delivery_line, unit_tokens, units_from
-from cleaner.addresses.lastline import split_one_line
+from cleaner.addresses.reconcile import read_one_line
 from cleaner.addresses.standard import clean_state, clean_zip, record_normalising, standardise_line
 from cleaner.addresses.vocabulary import (AddressVocabulary, compile_rules, normalise,
                                           normalise_stages, punctuated)
@@ -30,7 +30,7 @@ from cleaner.rules import RuleBook
 from cleaner.trail import Trail
 
 PARTS = ("line1", "line2", "city", "state", "postal_code", "country")
-_PART_FIELDS = {part: f"address.{part}" for part in PARTS}
+_PART_FIELDS = {part: f"address.{part}" for part in (*PARTS, "other_text")}
 
 
 def _kept_whole(trail: Trail, raw: Any, rules: RuleBook, code: str, kind: str,
@@ -64,29 +64,38 @@ def clean_one_line(raw: Any, options: Options, rules: RuleBook) -> Outcome:
     if vocabulary.is_placeholder(value, normal):
         return _kept_whole(trail, raw, rules, "addresses.placeholder", "unparsed", options.country,
                            value.upper())
-    split = split_one_line(normal, vocabulary)
+    kept, other = read_one_line(value, vocabulary)
+    split = kept.split
     country = _country_code(split.country, vocabulary) if split.country else options.country
     if country not in vocabulary.usps_countries and not (split.state and split.postal_code):
         return _kept_whole(trail, raw, rules, "addresses.non_us", "non_us", country)
-    state_code = vocabulary.states.get(tuple(split.state))
-    line = read_delivery_line(split.delivery, vocabulary, military_context=(
-        " ".join(split.city) in vocabulary.military_cities or state_code in vocabulary.military_states))
-    if line is None:
+    if kept.line is None and not (split.city or split.state or split.postal_code):
         return _kept_whole(trail, raw, rules, "addresses.unparsed", "unparsed", options.country)
 
     record_normalising(trail, stages)
-    assembly = Assembly(line=line, alternatives=[
+    state_code = vocabulary.states.get(tuple(split.state))
+    assembly = Assembly(line=kept.line, alternatives=[
         {"line1": " ".join(_standard_words(delivery, vocabulary, state_code)),
          "city": " ".join(city)} for delivery, city in split.alternatives])
     if split.alternatives or split.city_unknown:
         assembly.flags.append("addresses.city_boundary_ambiguous")
+    if other is not None:
+        assembly.flags.append("addresses.readings_differ")
+        assembly.alternatives.append(other.alternative(vocabulary))
+    if kept.other:
+        assembly.flags.append("addresses.text_set_apart")
     for part, words in (("line1", split.delivery), ("city", split.city), ("state", split.state),
-                        ("postal_code", split.postal_code), ("country", split.country)):
+                        ("postal_code", split.postal_code), ("country", split.country),
+                        ("other_text", kept.other)):
         if words:
             assembly.trails[part] = trail.split_off(_PART_FIELDS[part], " ".join(words),
                                                     "addresses.split_into_parts")
-    standardise_line(assembly.trails["line1"], line.tokens)
-    move_units(assembly)
+    if kept.line is None:
+        assembly.kind = "unparsed"
+        assembly.flags.append("addresses.unparsed")
+    else:
+        standardise_line(assembly.trails["line1"], kept.line.tokens)
+        move_units(assembly)
     _clean_last_line(assembly, vocabulary)
     return assemble(assembly, Trail("address", raw, rules.reasons), "US", vocabulary)
 

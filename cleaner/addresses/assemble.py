@@ -32,7 +32,7 @@ class Assembly:
 
 def empty_address() -> dict[str, Any]:
     return {"line1": None, "line2": None, "city": None, "state": None, "postal_code": None,
-            "country": None, "kind": None, "components": {}, "alternatives": [],
+            "country": None, "other_text": None, "kind": None, "components": {}, "alternatives": [],
             "placeholder": False, "valid": True}
 
 
@@ -44,8 +44,8 @@ def move_units(assembly: Assembly) -> None:
     others: list[str] = []
     for token in assembly.line.tokens:
         (units if token.role in UNIT_ROLES else others).append(token.standard)
-    if not units:
-        return
+    if not units or not others:
+        return   # a line of units alone (STE 1400) stays line1
     line1 = assembly.trails["line1"]
     moved = assembly.emptied.pop("line2", None) or line1.fork("address.line2")
     moved.apply(" ".join(filter(None, units)), "addresses.unit_moved")
@@ -75,7 +75,7 @@ def assemble(assembly: Assembly, whole: Trail, country: str | None,
     placeholder = "addresses.placeholder" in assembly.flags
     if line is not None:
         address["kind"] = line.kind
-        address["components"] = components(line.tokens + assembly.line2_units)
+        address["components"] = components(line.tokens + assembly.line2_units, vocabulary)
         if not line.has_number:
             assembly.flags.append("addresses.no_house_number")
         placeholder = placeholder or address["line1"] in vocabulary.placeholder_street_lines

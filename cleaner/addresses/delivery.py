@@ -15,6 +15,7 @@ from cleaner.addresses.vocabulary import AddressVocabulary
 _HAS_DIGIT = re.compile(r"\d")
 _HOUSE_NUMBER = re.compile(r"^(?:\d+[A-Z]?|\d+-\d+[A-Z]?|[A-Z]?\d+[A-Z]\d+|\d+\.\d+|[A-Z]\d+)$")
 _FRACTION = re.compile(r"^\d+/\d+$")
+_ORDINAL = re.compile(r"^(\d+)(?:ST|ND|RD|TH)$")
 _IDENTIFIER = re.compile(r"^(?:[A-Z0-9]+(?:-[A-Z0-9]+)?)$")
 
 class Token(NamedTuple):   # immutable, as the street cache shares its tokens between lines
@@ -114,7 +115,7 @@ def unit_group(words: list[str], start: int, vocabulary: AddressVocabulary) -> i
             else None
     designator = vocabulary.units.get(word)
     if designator is None:
-        return None
+        return start + 2 if floor_number(words, start, vocabulary) else None
     after = start + 1
     if after < len(words) and words[after] == "#":
         after += 1
@@ -134,10 +135,31 @@ def units_from(words: list[str], start: int, vocabulary: AddressVocabulary) -> i
     return at
 
 
+def floor_number(words: list[str], start: int, vocabulary: AddressVocabulary) -> str | None:
+    """The number of a floor written before its designator (15TH FLOOR, SECOND FL)."""
+    if start + 1 >= len(words) or vocabulary.units.get(words[start + 1]) \
+            not in vocabulary.units_after_number:
+        return None
+    word = words[start]
+    ordinal = _ORDINAL.match(word)
+    return ordinal[1] if ordinal else vocabulary.ordinal_words.get(word) or (
+        word if word.isdigit() else None)
+
+
 def unit_tokens(words: list[str], vocabulary: AddressVocabulary) -> list[Token]:
-    tokens = []
-    for word in words:
-        if word == "#" and tokens and tokens[-1].role == "unit_type" and tokens[-1].word != "#":
+    """The units' tokens, a designator first: 15TH FLOOR is FL 15."""
+    tokens: list[Token] = []
+    skip = False
+    for at, word in enumerate(words):
+        if skip:
+            skip = False
+            continue
+        if (number := floor_number(words, at, vocabulary)) is not None:
+            designator = words[at + 1]
+            tokens += [Token(designator, "unit_type", vocabulary.units[designator]),
+                       Token(word, "unit", number)]
+            skip = True
+        elif word == "#" and tokens and tokens[-1].role == "unit_type" and tokens[-1].word != "#":
             tokens.append(Token(word, "unit_type", ""))   # APT # 7 is APT 7
         elif word == "#" or (word in vocabulary.units and (not tokens or tokens[-1].role == "unit")):
             tokens.append(Token(word, "unit_type", vocabulary.units.get(word, "#")))
@@ -193,7 +215,8 @@ def _street_and_units(words: tuple[str, ...], vocabulary: AddressVocabulary
     cut = next((index for index in range(1, len(rest))
                 if units_from(rest, index, vocabulary) is not None), len(rest))
     street, units_after = rest[:cut], unit_tokens(rest[cut:], vocabulary)
-    if len(street) >= 3 and _is_identifier(street[-1]) and street[-2] in vocabulary.suffixes:
+    if len(street) >= 3 and _is_identifier(street[-1]) and street[-2] in vocabulary.suffixes \
+            and street[-2] not in vocabulary.route_types:   # STATE HIGHWAY 16 is a name
         units_after = [Token("#", "unit_type", "#"), Token(street[-1], "unit", street[-1])] \
             + units_after
         street = street[:-1]
@@ -219,7 +242,9 @@ def _street_tokens(words: list[str], vocabulary: AddressVocabulary) -> list[Toke
     if end - start >= 2 and words[start] in vocabulary.directionals:
         pre = Token(words[start], "predirectional", vocabulary.directionals[words[start]])
         start += 1
-    name = [Token(word, "street", word) for word in words[start:end]]
+    name = [Token(word, "pretype", vocabulary.route_types[word])
+            if word in vocabulary.route_types and at + 1 < end else Token(word, "street", word)
+            for at, word in enumerate(words[start:end], start)]
     return [token for token in (pre, *name, suffix, post) if token is not None]
 
 
@@ -230,17 +255,34 @@ def read_delivery_line(words: list[str], vocabulary: AddressVocabulary,
     return read_form(words, vocabulary, military_context) or _read_street(words, vocabulary)
 
 
-def components(tokens: list[Token]) -> dict[str, str]:
-    """The line's components by name; of several units, the last one."""
+def components(tokens: list[Token], vocabulary: AddressVocabulary) -> dict[str, str]:
+    """The line's components by name: a type written before the name is part
+    of the street's name (STATE HIGHWAY 16); of several units the last that is
+    not a building or a private mailbox is the unit, and the others are kept
+    in their order as other_units (BLDG C before STE 200)."""
     found: dict[str, str] = {}
+    units: list[list[str]] = []
     for token in tokens:
         if token.role == "form" or not token.standard:
             continue
         if token.role == "unit_type":
-            found.pop("unit", None)
-            found["unit_type"] = token.standard
-            continue
-        role = "number" if token.role == "fraction" else token.role
-        found[role] = f"{found[role]} {token.standard}" if role in found else token.standard
+            units.append([token.standard])
+        elif token.role == "unit":
+            if not units or len(units[-1]) > 1:
+                units.append(["#"])
+            units[-1].append(token.standard)
+        else:
+            role = _COMPONENT_OF_ROLE.get(token.role, token.role)
+            found[role] = f"{found[role]} {token.standard}" if role in found else token.standard
+    inner = [at for at, unit in enumerate(units) if unit[0] not in vocabulary.outer_units]
+    if units:
+        chosen = units.pop(inner[-1] if inner else -1)
+        found["unit_type"] = chosen[0]
+        if len(chosen) > 1:
+            found["unit"] = chosen[1]
+        if units:
+            found["other_units"] = " ".join(word for unit in units for word in unit)
     return found
 
+
+_COMPONENT_OF_ROLE = {"fraction": "number", "pretype": "street"}

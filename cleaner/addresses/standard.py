@@ -15,7 +15,8 @@ _ZIP_PLUS4 = re.compile(r"^(\d{5})-?(\d{4})$")
 _LINE_STAGES = ((("number",), "addresses.number_words"),
                 (("predirectional", "postdirectional"), "addresses.directional_abbreviated"),
                 (("suffix",), "addresses.suffix_standardised"),
-                (("unit_type",), "addresses.unit_standardised"),
+                (("pretype",), "addresses.route_type_written"),
+                (("unit_type", "unit"), "addresses.unit_standardised"),
                 (("form", "military_unit_type"), "addresses.box_standardised"))
 _STAGE_OF_ROLE = {role: stage for stage, (roles, _) in enumerate(_LINE_STAGES) for role in roles}
 

@@ -28,6 +28,9 @@ class AddressVocabulary:
     suffixes: Mapping[str, str]            # any C1 form -> standard abbreviation
     units: Mapping[str, str]               # any C2 form -> abbreviation
     units_without_range: frozenset[str]    # abbreviations that stand alone (REAR, BSMT)
+    outer_units: frozenset[str]            # a building or mailbox: the unit is another, if any
+    units_after_number: frozenset[str]     # abbreviations also written after their number (2ND FL)
+    ordinal_words: Mapping[str, str]       # SECOND -> 2
     directionals: Mapping[str, str]        # word or abbreviation -> abbreviation
     states: Mapping[tuple[str, ...], str]  # name words, code or variant -> code
     state_lengths: Mapping[str, tuple[int, ...]]     # last word -> its phrases' lengths
@@ -38,6 +41,8 @@ class AddressVocabulary:
     zip_first_digits: Mapping[str, frozenset[str]]   # state -> first digits of its ZIPs
     zero_zip_states: frozenset[str]
     number_words: Mapping[str, str]
+    recipient_opener: re.Pattern[str]      # c/o, ATTN: to the next comma or number
+    route_types: Mapping[str, str]         # a type written before a route's name -> in full
     forms: Mapping[str, Mapping[tuple[str, ...], str]]
     military_cities: frozenset[str]
     form_fillers: frozenset[str]
@@ -56,9 +61,11 @@ _AddressRulesSchema = Schema.from_dict({
     "max_length": fields.Integer(required=True, strict=True, validate=validate.Range(min=40)),
     **{name: fields.String(required=True) for name in (
         "suffixes_table", "units_table", "states_table", "directionals_table", "countries_table")},
-    **string_lists("usps_countries", "us_names", "boundary_suffixes"),
+    **string_lists("usps_countries", "us_names", "boundary_suffixes", "units_after_number",
+                   "recipient_openers", "outer_units"),
     **{name: fields.Dict(keys=fields.String(), values=fields.String(), required=True)
-       for name in ("country_variants", "state_variants", "unit_variants", "number_words")},
+       for name in ("country_variants", "state_variants", "unit_variants", "number_words",
+                                    "route_types", "ordinal_words")},
     "zip_first_digits": fields.Dict(keys=fields.String(validate=validate.Regexp(r"^\d$")),
                                     values=fields.List(fields.String()), required=True),
     "forms": fields.Nested(Schema.from_dict(string_lists(
@@ -124,6 +131,16 @@ def _lengths_by_last_word(table: Mapping[tuple[str, ...], str]) -> Mapping[str, 
                              for word, found in lengths.items()})
 
 
+def _opener_pattern(openers: list[str]) -> re.Pattern[str]:
+    """An opener as typed (any case, spaces or none around its marks) and the
+    words after it up to a comma or a word that starts with a digit."""
+    forms = sorted(openers, key=len, reverse=True)
+    alternatives = "|".join(re.escape(form).replace(r"\ ", r"\s+").replace("/", r"\s*/\s*")
+                            .replace(r"\.", r"\.\s*") for form in forms)
+    return re.compile(rf"(?<![\w/])(?:{alternatives})(?![\w])[:\s]*(?:[^,\d\s][^,\s]*\s*)*,?",
+                      re.IGNORECASE)
+
+
 def compile_rules(data: dict[str, Any], context: LoadContext) -> AddressVocabulary:
     loaded = context.validated(_AddressRulesSchema(), data)
     suffixes: dict[str, str] = {}
@@ -176,6 +193,11 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> AddressVocabula
         zero_zip_states=frozenset(code for code, digits in first_digits.items()
                                   if digits == {"0"}),
         number_words=MappingProxyType(dict(loaded["number_words"])),
+        route_types=MappingProxyType(dict(loaded["route_types"])),
+        recipient_opener=_opener_pattern(loaded["recipient_openers"]),
+        ordinal_words=MappingProxyType(dict(loaded["ordinal_words"])),
+        units_after_number=frozenset(loaded["units_after_number"]),
+        outer_units=frozenset(loaded["outer_units"]),
         forms=MappingProxyType({
             "po_box": _phrases(forms["po_box"], "PO BOX"),
             "rural_route": _phrases(forms["rural_route"], "RR"),

@@ -13,7 +13,10 @@ import usaddress
 from nameparser import HumanName
 
 sys.path.insert(0, str(Path(__file__).parent))
+sys.path.insert(0, str(Path(__file__).parent.parent / "tests"))
 import corpus  # noqa: E402
+import labelled  # noqa: E402  (the scorer of tests/test_addresses_opendata.py)
+from test_addresses_opendata import REVIEWED  # noqa: E402
 
 import cleaner  # noqa: E402
 from cleaner.addresses import clean_address  # noqa: E402
@@ -87,7 +90,24 @@ def main() -> dict:
     print(f"city right on {len(lines)} invented lines without commas: usaddress.tag {bare:.1%}, "
           f"cleaner {ours:.1%} (or as the flagged alternative: {either:.1%})")
     figures["city_without_commas"] = {"usaddress": bare, "cleaner": ours, "cleaner_or_alternative": either}
+    figures["real_addresses"] = real_address_accuracy(rules)
     return figures
+
+
+def real_address_accuracy(rules) -> dict:
+    """Components right on the usaddress library's hand-labelled strings (MIT),
+    the engine beside the bare usaddress.tag call; tests/labelled.py scores."""
+    strings, left_out = labelled.labelled_addresses()
+    standardiser = labelled.Standardiser(rules["addresses"])
+    ours = labelled.score(strings, standardiser, labelled.engine_reader(cleaner.clean, standardiser),
+                          REVIEWED)
+    bare = labelled.score(strings, standardiser, labelled.tagger_reader(standardiser), REVIEWED)
+    print(f"real addresses: {len(strings)} hand-labelled strings of the usaddress library's "
+          f"training file (MIT), {left_out} corners and landmarks left out")
+    print(labelled.table(ours, bare))
+    return {part or "all": {"cleaner": ours.share(part), "usaddress_tag": bare.share(part),
+                            "cleaner_silent": ours.silent_share(part)}
+            for part in (*labelled.COMPONENTS, None)}
 
 
 if __name__ == "__main__":

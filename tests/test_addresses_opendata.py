@@ -7,8 +7,10 @@ usaddress.tag call on the same strings (tests/labelled.py says how)."""
 from __future__ import annotations
 
 import pytest
+import usaddress
 
 import cleaner
+from cleaner.addresses import crf
 from cleaner.engine import default_rules
 from labelled import (COMPONENTS, Standardiser, engine_reader, labelled_addresses, score,
                       table, tagger_reader)
@@ -56,3 +58,13 @@ def test_each_component_is_right_95_percent_and_no_less_than_the_bare_tagger(sco
 def test_at_most_one_percent_of_components_are_wrong_without_a_review_flag(scores):
     ours, _ = scores
     assert ours.silent_share() <= 0.01
+
+
+def test_the_cached_token_attributes_give_the_taggers_own_labels():
+    """crf.sequence builds usaddress's features from per-token caches and
+    leaves out the false flags: usaddress.parse must label every string alike."""
+    strings, _ = labelled_addresses()
+    for item in strings:
+        tokens = usaddress.tokenize(item.text)
+        assert usaddress.TAGGER.tag(crf.sequence(tokens)) == [
+            label for _, label in usaddress.parse(item.text)], item.text

@@ -64,7 +64,9 @@ def clean_one_line(raw: Any, options: Options, rules: RuleBook) -> Outcome:
     if vocabulary.is_placeholder(value, normal):
         return _kept_whole(trail, raw, rules, "addresses.placeholder", "unparsed", options.country,
                            value.upper())
-    kept, other = read_one_line(value, vocabulary)
+    # The readings do not depend on case (the tagger reads words in lower case,
+    # the rules in upper): lines that differ only in case share one reading.
+    kept, other = read_one_line(value.upper() if value.isascii() else value, normal, vocabulary)
     split = kept.split
     country = _country_code(split.country, vocabulary) if split.country else options.country
     if country not in vocabulary.usps_countries and not (split.state and split.postal_code):

@@ -10,6 +10,7 @@ from dataclasses import dataclass, field
 
 import usaddress
 
+from cleaner.addresses import crf
 from cleaner.addresses.delivery import read_delivery_line, unit_group, units_from
 from cleaner.addresses.vocabulary import AddressVocabulary
 
@@ -27,6 +28,7 @@ class Split:
     country: list[str] = field(default_factory=list)
     alternatives: list[tuple[list[str], list[str]]] = field(default_factory=list)  # (delivery, city)
     city_unknown: bool = False     # a last line without commas whose city could not be found
+    trusted_boundary: bool = False  # without commas, the street closed with a boundary suffix
 
 
 def _phrase_before(words: list[str], end: int, table: Mapping[tuple[str, ...], str],
@@ -121,6 +123,7 @@ def _split_without_commas(split: Split, line: list[str], end: int,
     words = line[:end]
     military_context = vocabulary.states.get(tuple(split.state)) in vocabulary.military_states
     start = _closing_end(words, vocabulary, military_context, trusted_only=True)
+    split.trusted_boundary = start is not None
     if start is None:
         start = _tagged_city_start(line, end, vocabulary, military_context)
     if start is None:
@@ -202,11 +205,6 @@ CLOSING_ROLES = ("suffix", "box", "form")
 
 def _labels(words: list[str]) -> list[str] | None:
     """usaddress's label of each word, or None when it cannot tag them one to one."""
-    try:
-        tagged = usaddress.parse(" ".join(words))
-    except Exception:  # usaddress raises bare Exceptions and RepeatedLabelError alike
-        return None
-    if [token for token, _ in tagged] != words:
-        return None
-    return [label for _, label in tagged]
+    tokens = usaddress.tokenize(" ".join(words))
+    return crf.labels(tokens) if tokens == words else None
 

@@ -11,6 +11,7 @@ among the alternatives.
 
 from __future__ import annotations
 
+import functools
 import re
 from dataclasses import dataclass, field
 
@@ -30,14 +31,18 @@ class Reading:
     split: Split
     line: DeliveryLine | None
     other: list[str] = field(default_factory=list)   # words set apart from the address
+    compared: tuple | None = None
 
     def parts(self, vocabulary: AddressVocabulary) -> tuple:
         """What two readings are compared on: the delivery line's components,
         the city, the state's code and the ZIP."""
-        standard = tuple(components(self.line.tokens, vocabulary).items()) \
-            if self.line else tuple(self.split.delivery)
-        state = vocabulary.states.get(tuple(self.split.state), " ".join(self.split.state))
-        return standard, tuple(self.split.city), state, "".join(self.split.postal_code)
+        if self.compared is None:
+            standard = tuple(components(self.line.tokens, vocabulary).items()) \
+                if self.line else tuple(self.split.delivery)
+            state = vocabulary.states.get(tuple(self.split.state), " ".join(self.split.state))
+            self.compared = (standard, tuple(self.split.city), state,
+                             "".join(self.split.postal_code))
+        return self.compared
 
     def alternative(self, vocabulary: AddressVocabulary) -> dict[str, str | None]:
         if self.line is None:
@@ -75,7 +80,9 @@ def set_apart(value: str, vocabulary: AddressVocabulary) -> tuple[str, list[str]
         other.extend(normalise(match[0]).replace(",", " ").split())
         return ", " if match[0].endswith(",") else " "
     value = _PARENTHESISED.sub(keep, value) if "(" in value else value
-    value = vocabulary.recipient_opener.sub(keep, value)
+    lowered = value.lower()
+    if any(hint in lowered for hint in vocabulary.recipient_hints):
+        value = vocabulary.recipient_opener.sub(keep, value)
     words = value.split()
     half = len(words) // 2
     if half >= 3 and len(words) % 2 == 0 and \
@@ -92,17 +99,28 @@ def rule_reading(normal: str, vocabulary: AddressVocabulary) -> Reading:
 
 
 def _certain(reading: Reading, normal: str, vocabulary: AddressVocabulary) -> bool:
-    """Commas between the delivery line, the city and the state, a ZIP of the
-    state, and a street line read whole: a house number and a suffix where
-    the street closes, or a box form."""
+    """A comma between the street and the city, or a boundary suffix (AVE,
+    RD...) right before a city, neither of them a word that also opens town
+    names (ST for SAINT, MOUNT) and the city holding no direction or short
+    word; the state with a ZIP; and a street
+    line read whole: a house number and a suffix where the street closes, or
+    a box form."""
     split, line = reading.split, reading.line
     if line is None or not split.city or not split.postal_code or split.alternatives \
-            or split.city_unknown or normal.count(",") < 1:
+            or split.city_unknown:
         return False
     state = vocabulary.states.get(tuple(split.state))
     city = split.city
-    if state is None or len(city) > _LONGEST_CERTAIN_CITY or f", {' '.join(city)}" not in normal \
-            or city[0] in vocabulary.directionals or (city[-1],) in vocabulary.states \
+    after_comma = f", {' '.join(city)}" in normal
+    if not after_comma and not (
+            split.trusted_boundary and split.delivery and split.delivery[-1] in vocabulary.suffixes
+            and split.delivery[-1] not in vocabulary.city_openers
+            and city[0] not in vocabulary.city_openers and city[0] not in vocabulary.directionals
+            and all(len(word) > 2 for word in city)):
+        return False
+    if state is None or len(city) > _LONGEST_CERTAIN_CITY \
+            or (city[0] in vocabulary.directionals and len(city[0]) <= 2) \
+            or (city[-1],) in vocabulary.states \
             or any(word in vocabulary.units or word[0].isdigit() for word in city):
         return False
     if line.kind != "street":
@@ -119,10 +137,16 @@ def _abroad(reading: Reading, vocabulary: AddressVocabulary) -> bool:
     return bool(reading.split.country) and country not in vocabulary.usps_countries
 
 
-def read_one_line(value: str, vocabulary: AddressVocabulary) -> tuple[Reading, Reading | None]:
-    """The reading kept, and the other when the two differ."""
+# Feeds repeat whole address lines (a household, a facility): each distinct
+# line is read once per process. The readings are shared, so never changed.
+@functools.lru_cache(maxsize=8192)
+def read_one_line(value: str, normal: str, vocabulary: AddressVocabulary
+                  ) -> tuple[Reading, Reading | None]:
+    """The reading kept, and the other when the two differ, of a line as typed
+    and as normalised."""
     kept_text, other = set_apart(value, vocabulary)
-    normal = normalise(kept_text)
+    if other:
+        normal = normalise(kept_text)
     rules = rule_reading(normal, vocabulary)
     rules.other = other
     if _certain(rules, normal, vocabulary) or _abroad(rules, vocabulary):

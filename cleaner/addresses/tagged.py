@@ -14,8 +14,9 @@ from __future__ import annotations
 import functools
 from collections.abc import Iterable
 
-import pycrfsuite
 import usaddress
+
+from cleaner.addresses import crf
 
 from cleaner.addresses.delivery import (DeliveryLine, Token, house_number, read_form,
                                         unit_group, unit_tokens)
@@ -44,39 +45,20 @@ _RANK = {"number": 0, "predirectional": 1, "pretype": 2, "street": 2, "suffix": 
 _STREET_ORDER = ("number", "predirectional", "pretype", "street", "suffix", "postdirectional")
 
 
-@functools.lru_cache(maxsize=8192)
-def _token_features(token: str) -> dict:
-    return usaddress.tokenFeatures(token)
-
-
-def _sequence(tokens: list[str]) -> pycrfsuite.ItemSequence:
-    """usaddress.tokens2features, from features computed once per distinct token:
-    each token's own features, its neighbours' under previous and next, and
-    where the line starts and ends."""
-    own = [_token_features(token) for token in tokens]
-    last = len(tokens) - 1
-    items = []
-    for index, features in enumerate(own):
-        item = dict(features)
-        if index > 0:
-            item["previous"] = own[index - 1] if index > 1 else {**own[0], "address.start": True}
-        if index < last:
-            item["next"] = own[index + 1] if index + 1 < last else {**own[last], "address.end": True}
-        items.append(item)
-    items[0]["address.start"] = True
-    items[last]["address.end"] = True
-    return pycrfsuite.ItemSequence(items)
-
-
 @functools.lru_cache(maxsize=4096)
 def labelled_words(text: str) -> tuple[tuple[str, str], ...]:
     """Each word of the normalised line with the label of the token it came from."""
     tokens = usaddress.tokenize(text)
     if not tokens:
         return ()
-    labels = usaddress.TAGGER.tag(_sequence(tokens))
+    labels = crf.labels(tokens)
     return tuple((word, label) for token, label in zip(tokens, labels)
-                 for word in normalise(token).replace(",", " ").split())
+                 for word in _token_words(token))
+
+
+@functools.lru_cache(maxsize=8192)
+def _token_words(token: str) -> tuple[str, ...]:
+    return tuple(normalise(token).replace(",", " ").split())
 
 
 def read_tagged(text: str, vocabulary: AddressVocabulary, military_context: bool

@@ -28,6 +28,7 @@ class AddressVocabulary:
     suffixes: Mapping[str, str]            # any C1 form -> standard abbreviation
     units: Mapping[str, str]               # any C2 form -> abbreviation
     units_without_range: frozenset[str]    # abbreviations that stand alone (REAR, BSMT)
+    city_openers: frozenset[str]           # first words of towns that also end streets (SAINT)
     outer_units: frozenset[str]            # a building or mailbox: the unit is another, if any
     units_after_number: frozenset[str]     # abbreviations also written after their number (2ND FL)
     ordinal_words: Mapping[str, str]       # SECOND -> 2
@@ -42,6 +43,7 @@ class AddressVocabulary:
     zero_zip_states: frozenset[str]
     number_words: Mapping[str, str]
     recipient_opener: re.Pattern[str]      # c/o, ATTN: to the next comma or number
+    recipient_hints: frozenset[str]        # what a line with an opener holds, lower case
     route_types: Mapping[str, str]         # a type written before a route's name -> in full
     forms: Mapping[str, Mapping[tuple[str, ...], str]]
     military_cities: frozenset[str]
@@ -62,7 +64,7 @@ _AddressRulesSchema = Schema.from_dict({
     **{name: fields.String(required=True) for name in (
         "suffixes_table", "units_table", "states_table", "directionals_table", "countries_table")},
     **string_lists("usps_countries", "us_names", "boundary_suffixes", "units_after_number",
-                   "recipient_openers", "outer_units"),
+                   "recipient_openers", "outer_units", "city_openers"),
     **{name: fields.Dict(keys=fields.String(), values=fields.String(), required=True)
        for name in ("country_variants", "state_variants", "unit_variants", "number_words",
                                     "route_types", "ordinal_words")},
@@ -195,9 +197,12 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> AddressVocabula
         number_words=MappingProxyType(dict(loaded["number_words"])),
         route_types=MappingProxyType(dict(loaded["route_types"])),
         recipient_opener=_opener_pattern(loaded["recipient_openers"]),
+        recipient_hints=frozenset(max(opener.lower().split(), key=len)[:3]
+                                  for opener in loaded["recipient_openers"]),
         ordinal_words=MappingProxyType(dict(loaded["ordinal_words"])),
         units_after_number=frozenset(loaded["units_after_number"]),
         outer_units=frozenset(loaded["outer_units"]),
+        city_openers=frozenset(loaded["city_openers"]),
         forms=MappingProxyType({
             "po_box": _phrases(forms["po_box"], "PO BOX"),
             "rural_route": _phrases(forms["rural_route"], "RR"),

@@ -129,7 +129,8 @@ _CLEANED_COLUMNS: dict[str, list[tuple[str, Any]]] = {
     "email": [("email", _value)],
     "ssn": [("ssn", _value)],
     "address": [(f"address_{part}", lambda address, part=part: address[part])
-                for part in ("line1", "line2", "city", "state", "postal_code", "country")],
+                for part in ("line1", "line2", "city", "state", "postal_code", "country",
+                             "urbanization", "other_text")],
 }
 
 

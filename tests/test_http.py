@@ -94,7 +94,7 @@ def test_clean_an_address_as_the_contract_shows_it(api):
         "postal_code": "62704", "country": "US", "kind": "street", "alternatives": [],
         "components": {"number": "12", "predirectional": "N", "street": "ELM", "suffix": "ST",
                        "unit_type": "APT", "unit": "4B"}, "placeholder": False, "valid": True,
-        "other_text": None}
+        "other_text": None, "urbanization": None}
     assert body["keys"]["zip5"] == "62704" and body["keys"]["street_key"] == "12ELM"
     foreign = api.clean({"line1": "Av. Juárez 12", "country": "Mexico"}).get_json()
     assert foreign["record"]["address"]["kind"] == "non_us"

@@ -20,6 +20,7 @@ from typing import Any
 from cleaner import text
 from cleaner.addresses.assemble import Assembly, assemble, empty_address, move_units
 from cleaner.addresses.delivery import read_delivery_line, unit_tokens, units_from
+from cleaner.addresses.lastline import foreign_country
 from cleaner.addresses.reconcile import read_one_line
 from cleaner.addresses.standard import clean_state, clean_zip, record_normalising, standardise_line
 from cleaner.addresses.vocabulary import (AddressVocabulary, compile_rules, normalise,
@@ -30,7 +31,7 @@ from cleaner.rules import RuleBook
 from cleaner.trail import Trail
 
 PARTS = ("line1", "line2", "city", "state", "postal_code", "country")
-_PART_FIELDS = {part: f"address.{part}" for part in (*PARTS, "other_text")}
+_PART_FIELDS = {part: f"address.{part}" for part in (*PARTS, "other_text", "urbanization")}
 
 
 def _kept_whole(trail: Trail, raw: Any, rules: RuleBook, code: str, kind: str,
@@ -64,6 +65,9 @@ def clean_one_line(raw: Any, options: Options, rules: RuleBook) -> Outcome:
     if vocabulary.is_placeholder(value, normal):
         return _kept_whole(trail, raw, rules, "addresses.placeholder", "unparsed", options.country,
                            value.upper())
+    abroad = foreign_country(normal.replace(",", " ").split(), vocabulary)
+    if abroad is not None:
+        return _kept_whole(trail, raw, rules, "addresses.non_us", "non_us", abroad)
     # The readings do not depend on case (the tagger reads words in lower case,
     # the rules in upper): lines that differ only in case share one reading.
     kept, other = read_one_line(value.upper() if value.isascii() else value, normal, vocabulary)
@@ -88,10 +92,14 @@ def clean_one_line(raw: Any, options: Options, rules: RuleBook) -> Outcome:
         assembly.flags.append("addresses.text_set_apart")
     for part, words in (("line1", split.delivery), ("city", split.city), ("state", split.state),
                         ("postal_code", split.postal_code), ("country", split.country),
-                        ("other_text", kept.other)):
+                        ("other_text", kept.other), ("urbanization", kept.urbanization)):
         if words:
             assembly.trails[part] = trail.split_off(_PART_FIELDS[part], " ".join(words),
                                                     "addresses.split_into_parts")
+    if kept.urbanization:
+        place = assembly.trails["urbanization"]
+        place.apply(" ".join([vocabulary.urbanization_types[kept.urbanization[0]],
+                              *kept.urbanization[1:]]), "addresses.urbanization_standardised")
     if kept.line is None:
         assembly.kind = "unparsed"
         assembly.flags.append("addresses.unparsed")

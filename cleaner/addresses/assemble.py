@@ -32,7 +32,7 @@ class Assembly:
 
 def empty_address() -> dict[str, Any]:
     return {"line1": None, "line2": None, "city": None, "state": None, "postal_code": None,
-            "country": None, "other_text": None, "kind": None, "components": {}, "alternatives": [],
+            "country": None, "other_text": None, "urbanization": None, "kind": None, "components": {}, "alternatives": [],
             "placeholder": False, "valid": True}
 
 

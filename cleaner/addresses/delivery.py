@@ -170,8 +170,16 @@ def unit_tokens(words: list[str], vocabulary: AddressVocabulary) -> list[Token]:
 
 def _read_street(words: list[str], vocabulary: AddressVocabulary) -> DeliveryLine | None:
     """NUMBER [FRACTION] [PREDIR] STREET [SUFFIX] [POSTDIR] [UNITS], with units
-    also allowed before the street (LOT 4 PINE LN) and a bare unit number
-    after the suffix written with '#'."""
+    also allowed before the street (LOT 4 PINE LN) or the whole line (APT 4B
+    12 ELM ST) and a bare unit number after the suffix written with '#'."""
+    lead = 0
+    while (end := unit_group(words, lead, vocabulary)) is not None and end < len(words):
+        lead = end
+    if lead and house_number(words[lead], vocabulary) is not None:
+        line = _read_street(words[lead:], vocabulary)
+        if line is not None:
+            line.tokens += unit_tokens(words[:lead], vocabulary)
+        return line
     tokens: list[Token] = []
     at = 0
     number = house_number(words[0], vocabulary)
@@ -186,9 +194,10 @@ def _read_street(words: list[str], vocabulary: AddressVocabulary) -> DeliveryLin
         return None
     named, units = after_number
     has_number = at > 0
-    if not has_number and (not any(token.role == "suffix" for token in named)
-                           or sum(token.role == "street" for token in named) > 2):
-        return None   # without a number, only a short name and a suffix make a street
+    if not has_number and named[0].word not in vocabulary.spanish_street_types and (
+            not any(token.role == "suffix" for token in named)
+            or sum(token.role == "street" for token in named) > 2):
+        return None   # without a number, only a short name and a suffix, or CALLE 5, make a street
     return DeliveryLine("street", [*tokens, *named, *units], has_number)
 
 
@@ -243,9 +252,14 @@ def _street_tokens(words: list[str], vocabulary: AddressVocabulary) -> list[Toke
         pre = Token(words[start], "predirectional", vocabulary.directionals[words[start]])
         start += 1
     name = [Token(word, "pretype", vocabulary.route_types[word])
-            if word in vocabulary.route_types and at + 1 < end else Token(word, "street", word)
-            for at, word in enumerate(words[start:end], start)]
+            if word in vocabulary.route_types and route_number(words[at + 1:end])
+            else Token(word, "street", word) for at, word in enumerate(words[start:end], start)]
     return [token for token in (pre, *name, suffix, post) if token is not None]
+
+
+def route_number(words: list[str]) -> bool:
+    """What follows a route's type is its number or letter (16, K, 1960, A1A)."""
+    return len(words) == 1 and (len(words[0]) == 1 or _HAS_DIGIT.search(words[0]) is not None)
 
 
 def read_delivery_line(words: list[str], vocabulary: AddressVocabulary,

@@ -58,6 +58,31 @@ def _in_one_segment(segment_of: list[int], start: int | None, end: int) -> int |
     return start if start is not None and segment_of[start] == segment_of[end - 1] else None
 
 
+def _united_states_before(words: list[str], end: int, vocabulary: AddressVocabulary) -> int | None:
+    """Where a name of the United States written in the state's place (USA,
+    UNITED STATES) starts, when it ends at `end` and is no state's name."""
+    start = _phrase_before(words, end, vocabulary.countries, vocabulary.country_lengths)
+    if start is None or vocabulary.countries[tuple(words[start:end])] != "US" \
+            or _phrase_before(words, end, vocabulary.states, vocabulary.state_lengths) is not None:
+        return None
+    return start
+
+
+def foreign_country(words: list[str], vocabulary: AddressVocabulary) -> str | None:
+    """The country whose postal code, after one of its regions, ends the line
+    (ON M5V 2T6 is Canada's), when no US state and ZIP do."""
+    for country, pattern, regions in vocabulary.foreign_postal_codes:
+        for size in (2, 1):
+            code = " ".join(words[-size:])
+            if len(words) <= size or not pattern.match(code):
+                continue
+            before = words[:-size]
+            if not regions or any(tuple(before[-length:]) in regions for length in (1, 2, 3, 4)
+                                  if length <= len(before)):
+                return country
+    return None
+
+
 def split_one_line(value: str, vocabulary: AddressVocabulary) -> Split:
     """The last line split off from the right: country, ZIP, state, then the
     city after the last comma, or where usaddress's tagger ends the street."""
@@ -73,6 +98,9 @@ def split_one_line(value: str, vocabulary: AddressVocabulary) -> Split:
         split.country, end = words[country:end], country
     zip_start = _zip_start(words, end)
     state_end = zip_start if zip_start is not None else end
+    united_states = _united_states_before(words, state_end, vocabulary)
+    if zip_start is not None and united_states is not None:
+        split.country, state_end = words[united_states:state_end], united_states   # USA 62704
     state = _phrase_before(words, state_end, vocabulary.states, vocabulary.state_lengths) \
         if state_end else None
     if state is not None and state_end - state < _NAME_WITH_COMMAS:
@@ -86,7 +114,7 @@ def split_one_line(value: str, vocabulary: AddressVocabulary) -> Split:
         end = state
     elif zip_start is not None and zip_start > 0 and (
             _ZIP5.match(words[zip_start]) or _ZIP_PLUS4.match("".join(words[zip_start:end]))):
-        split.postal_code, end = words[zip_start:end], zip_start
+        split.postal_code, end = words[zip_start:end], state_end
     if end == len(words) - len(split.country) and not split.state:
         return _without_last_line(split, segments, words[:end], vocabulary)
     last_segment = segment_of[end - 1] if end else 0

@@ -31,13 +31,14 @@ class Reading:
     split: Split
     line: DeliveryLine | None
     other: list[str] = field(default_factory=list)   # words set apart from the address
+    urbanization: list[str] = field(default_factory=list)   # URB LAS GLADIOLAS (Puerto Rico)
     compared: tuple | None = None
 
     def parts(self, vocabulary: AddressVocabulary) -> tuple:
         """What two readings are compared on: the delivery line's components,
         the city, the state's code and the ZIP."""
         if self.compared is None:
-            standard = tuple(components(self.line.tokens, vocabulary).items()) \
+            standard = frozenset(components(self.line.tokens, vocabulary).items()) \
                 if self.line else tuple(self.split.delivery)
             state = vocabulary.states.get(tuple(self.split.state), " ".join(self.split.state))
             self.compared = (standard, tuple(self.split.city), state,
@@ -92,6 +93,26 @@ def set_apart(value: str, vocabulary: AddressVocabulary) -> tuple[str, list[str]
     return value.strip(" ,;"), other
 
 
+def urbanization(value: str, vocabulary: AddressVocabulary) -> tuple[str, list[str]]:
+    """The line without a Puerto Rico urbanization (URB, COND, RES... and its
+    name, up to a comma, a number or a unit), and the normalised words of it."""
+    segments = value.split(",")
+    for at, segment in enumerate(segments):
+        words = segment.split()
+        if len(words) < 2 or normalise(words[0]) not in vocabulary.urbanization_types:
+            continue
+        taken = 1
+        while taken < len(words) and (word := normalise(words[taken])) \
+                and not word[0].isdigit() and word not in vocabulary.units:
+            taken += 1
+        if taken < 2:
+            continue
+        rest = " ".join(words[taken:])
+        kept = [*segments[:at], *([rest] if rest else []), *segments[at + 1:]]
+        return ",".join(kept).strip(" ,"), normalise(" ".join(words[:taken])).split()
+    return value, []
+
+
 def rule_reading(normal: str, vocabulary: AddressVocabulary) -> Reading:
     split = split_one_line(normal, vocabulary)
     return Reading(split, read_delivery_line(split.delivery, vocabulary,
@@ -137,6 +158,20 @@ def _abroad(reading: Reading, vocabulary: AddressVocabulary) -> bool:
     return bool(reading.split.country) and country not in vocabulary.usps_countries
 
 
+def _named_after_its_type(reading: Reading, vocabulary: AddressVocabulary) -> Reading | None:
+    """A street read as a Spanish type alone (150 CALLE | TULIPAN SAN JUAN)
+    takes the next word of the city for its name."""
+    line, split = reading.line, reading.split
+    if line is None or len(split.city) < 2 or [token.word for token in line.tokens
+                                                if token.role == "street"] != split.delivery[-1:] \
+            or split.delivery[-1] not in vocabulary.spanish_street_types:
+        return None
+    moved = Split(split.delivery + split.city[:1], split.city[1:], split.state,
+                  split.postal_code, split.country)
+    return Reading(moved, read_delivery_line(moved.delivery, vocabulary, False),
+                   reading.other, reading.urbanization)
+
+
 # Feeds repeat whole address lines (a household, a facility): each distinct
 # line is read once per process. The readings are shared, so never changed.
 @functools.lru_cache(maxsize=8192)
@@ -145,10 +180,13 @@ def read_one_line(value: str, normal: str, vocabulary: AddressVocabulary
     """The reading kept, and the other when the two differ, of a line as typed
     and as normalised."""
     kept_text, other = set_apart(value, vocabulary)
-    if other:
+    kept_text, place = urbanization(kept_text, vocabulary)
+    if other or place:
         normal = normalise(kept_text)
     rules = rule_reading(normal, vocabulary)
-    rules.other = other
+    rules.other, rules.urbanization = other, place
+    if (named := _named_after_its_type(rules, vocabulary)) is not None:
+        return named, rules
     if _certain(rules, normal, vocabulary) or _abroad(rules, vocabulary):
         return rules, None
     tagged = read_tagged(kept_text, vocabulary, military_context=False)
@@ -157,7 +195,7 @@ def read_one_line(value: str, normal: str, vocabulary: AddressVocabulary
     split, tagged_other, line = tagged
     if _military_context(split, vocabulary) and line is None:
         line = read_delivery_line(split.delivery, vocabulary, True)
-    tagger = Reading(split, line, other + tagged_other)
+    tagger = Reading(split, line, other + tagged_other, place)
     if rules.parts(vocabulary) == tagger.parts(vocabulary) and not tagged_other:
         return rules, None
     if (split.delivery, split.city) in rules.split.alternatives:
@@ -165,6 +203,10 @@ def read_one_line(value: str, normal: str, vocabulary: AddressVocabulary
     if rules.line is not None and rules.line.kind != "street" \
             and rules.parts(vocabulary)[1:] == tagger.parts(vocabulary)[1:]:
         return rules, None   # a box or route form the tagger has no words for (CALLER, PSC)
+    if rules.line is not None and rules.line.kind == "street" and any(
+            token.role == "street" and token.word in vocabulary.spanish_street_types
+            for token in rules.line.tokens[:2]):
+        return rules, tagger   # CALLE 5 BLQ 3: a Puerto Rico form the tagger was not taught
     if len(rules.split.state) > 1 and split.state != rules.split.state:
         return rules, None   # a state name of the table, that the tagger takes for a city
     if tagger.line is None and (split.delivery or not (split.city or split.state

@@ -19,7 +19,7 @@ import usaddress
 from cleaner.addresses import crf
 
 from cleaner.addresses.delivery import (DeliveryLine, Token, house_number, read_form,
-                                        unit_group, unit_tokens)
+                                        route_number, unit_group, unit_tokens)
 from cleaner.addresses.lastline import Split
 from cleaner.addresses.vocabulary import AddressVocabulary, normalise
 
@@ -79,7 +79,20 @@ def read_tagged(text: str, vocabulary: AddressVocabulary, military_context: bool
         else:
             getattr(split, part).append(word)
     split.delivery = [word for word, _ in delivery]
+    if tuple(split.state) not in vocabulary.states:
+        _united_states_as_country(split, vocabulary)
     return split, other, _delivery_line(delivery, vocabulary, military_context)
+
+
+def _united_states_as_country(split: Split, vocabulary: AddressVocabulary) -> None:
+    """USA or UNITED STATES written where the state goes, which the tagger
+    may read as a state or as the end of the city, is the country."""
+    place = split.city + split.state
+    for length in range(min(4, len(place)), 0, -1):
+        if vocabulary.countries.get(tuple(place[-length:])) == "US":
+            split.country = place[-length:] + split.country
+            split.city, split.state = place[:-length], []
+            return
 
 
 def _delivery_line(words: list[tuple[str, str]], vocabulary: AddressVocabulary,
@@ -107,6 +120,8 @@ def _delivery_line(words: list[tuple[str, str]], vocabulary: AddressVocabulary,
     units[:0], by_role["street"] = street[:at], street[at:]
     unit_words = [word for word in units if word != "#"] if any(
         word in vocabulary.units for word in units) else units
+    if not route_number(by_role.get("street", [])):
+        by_role["street"] = by_role.pop("pretype", []) + by_role.get("street", [])
     tokens = [token for role in _STREET_ORDER for token in _street_role_tokens(
         role, by_role.get(role, ()), vocabulary)]
     named = any(token.role == "street" for token in tokens)
@@ -116,12 +131,20 @@ def _delivery_line(words: list[tuple[str, str]], vocabulary: AddressVocabulary,
         if form is None or (tokens and not named):
             return None
         return DeliveryLine(form.kind if not tokens else "street",
-                            tokens + form.tokens + unit_tokens(unit_words, vocabulary),
+                            tokens + form.tokens + _designated(unit_tokens(unit_words, vocabulary)),
                             has_number=form.has_number or "number" in by_role)
     if not named and (tokens or not any(word in vocabulary.units for word in unit_words)):
         return None
-    return DeliveryLine("street", tokens + unit_tokens(unit_words, vocabulary),
+    return DeliveryLine("street", tokens + _designated(unit_tokens(unit_words, vocabulary)),
                         has_number="number" in by_role)
+
+
+def _designated(units: list[Token]) -> list[Token]:
+    """A unit number typed without a designator is written after '#' (Pub 28
+    section 213: 88 W TAMARACK # 12C)."""
+    if units and units[0].role == "unit":
+        return [Token("", "unit_type", "#"), *units]
+    return units
 
 
 def _street_role_tokens(role: str, words: Iterable[str], vocabulary: AddressVocabulary

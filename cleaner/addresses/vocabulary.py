@@ -28,6 +28,9 @@ class AddressVocabulary:
     suffixes: Mapping[str, str]            # any C1 form -> standard abbreviation
     units: Mapping[str, str]               # any C2 form -> abbreviation
     units_without_range: frozenset[str]    # abbreviations that stand alone (REAR, BSMT)
+    foreign_postal_codes: tuple[tuple[str, re.Pattern[str], frozenset[tuple[str, ...]]], ...]
+    urbanization_types: Mapping[str, str]  # URBANIZACION -> URB
+    spanish_street_types: frozenset[str]   # CALLE: the name follows
     city_openers: frozenset[str]           # first words of towns that also end streets (SAINT)
     outer_units: frozenset[str]            # a building or mailbox: the unit is another, if any
     units_after_number: frozenset[str]     # abbreviations also written after their number (2ND FL)
@@ -64,12 +67,17 @@ _AddressRulesSchema = Schema.from_dict({
     **{name: fields.String(required=True) for name in (
         "suffixes_table", "units_table", "states_table", "directionals_table", "countries_table")},
     **string_lists("usps_countries", "us_names", "boundary_suffixes", "units_after_number",
-                   "recipient_openers", "outer_units", "city_openers"),
+                   "recipient_openers", "outer_units", "city_openers",
+                   "spanish_street_types"),
     **{name: fields.Dict(keys=fields.String(), values=fields.String(), required=True)
        for name in ("country_variants", "state_variants", "unit_variants", "number_words",
-                                    "route_types", "ordinal_words")},
+                                    "route_types", "ordinal_words", "urbanization_types")},
     "zip_first_digits": fields.Dict(keys=fields.String(validate=validate.Regexp(r"^\d$")),
                                     values=fields.List(fields.String()), required=True),
+    "foreign_postal_codes": fields.List(fields.Nested(Schema.from_dict({
+        "country": fields.String(required=True, validate=validate.Regexp(r"^[A-Z]{2}$")),
+        "pattern": fields.String(required=True),
+        "regions": fields.List(fields.String(), required=True)})), required=True),
     "forms": fields.Nested(Schema.from_dict(string_lists(
         "po_box", "rural_route", "highway_contract", "box", "military_units", "military_cities",
         "general_delivery", "fillers")), required=True),
@@ -131,6 +139,13 @@ def _lengths_by_last_word(table: Mapping[tuple[str, ...], str]) -> Mapping[str, 
         lengths.setdefault(phrase[-1], set()).add(len(phrase))
     return MappingProxyType({word: tuple(sorted(found, reverse=True))
                              for word, found in lengths.items()})
+
+
+def _pattern(pattern: str) -> re.Pattern[str]:
+    try:
+        return re.compile(pattern)
+    except re.error as error:
+        raise RulesError(f"addresses: foreign postal code pattern {pattern!r}: {error}") from None
 
 
 def _opener_pattern(openers: list[str]) -> re.Pattern[str]:
@@ -203,6 +218,12 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> AddressVocabula
         units_after_number=frozenset(loaded["units_after_number"]),
         outer_units=frozenset(loaded["outer_units"]),
         city_openers=frozenset(loaded["city_openers"]),
+        spanish_street_types=frozenset(loaded["spanish_street_types"]),
+        urbanization_types=MappingProxyType({normalise(form): standard for form, standard
+                                             in loaded["urbanization_types"].items()}),
+        foreign_postal_codes=tuple(
+            (entry["country"], _pattern(entry["pattern"]), frozenset(map(_words, entry["regions"])))
+            for entry in loaded["foreign_postal_codes"]),
         forms=MappingProxyType({
             "po_box": _phrases(forms["po_box"], "PO BOX"),
             "rural_route": _phrases(forms["rural_route"], "RR"),

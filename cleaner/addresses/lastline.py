@@ -96,10 +96,11 @@ def split_one_line(value: str, vocabulary: AddressVocabulary) -> Split:
     if country is not None and _phrase_before(words, end, vocabulary.states,
                                               vocabulary.state_lengths) is None:
         split.country, end = words[country:end], country
+    line_end = end   # the line without a country that closes it
     zip_start = _zip_start(words, end)
     state_end = zip_start if zip_start is not None else end
     united_states = _united_states_before(words, state_end, vocabulary)
-    if zip_start is not None and united_states is not None:
+    if zip_start is not None and united_states:
         split.country, state_end = words[united_states:state_end], united_states   # USA 62704
     state = _phrase_before(words, state_end, vocabulary.states, vocabulary.state_lengths) \
         if state_end else None
@@ -115,7 +116,7 @@ def split_one_line(value: str, vocabulary: AddressVocabulary) -> Split:
     elif zip_start is not None and zip_start > 0 and (
             _ZIP5.match(words[zip_start]) or _ZIP_PLUS4.match("".join(words[zip_start:end]))):
         split.postal_code, end = words[zip_start:end], state_end
-    if end == len(words) - len(split.country) and not split.state:
+    if end == line_end and not split.state:
         return _without_last_line(split, segments, words[:end], vocabulary)
     last_segment = segment_of[end - 1] if end else 0
     first_of_last = segment_of.index(last_segment) if end else 0
@@ -126,7 +127,7 @@ def split_one_line(value: str, vocabulary: AddressVocabulary) -> Split:
             previous = segment_of.index(last_segment - 1)
             split.city, split.delivery = words[previous:first_of_last], words[:previous]
     else:
-        _split_without_commas(split, words[:len(words) - len(split.country)], end, vocabulary)
+        _split_without_commas(split, words[:line_end], end, vocabulary)
     return split
 
 

@@ -109,6 +109,8 @@ def unit_group(words: list[str], start: int, vocabulary: AddressVocabulary) -> i
     designator that needs none (REAR), or '#' and a number."""
     if start >= len(words):
         return None
+    if tuple(words[start:start + 2]) in vocabulary.unit_phrases:
+        return start + 2   # LOWER LEVEL
     word = words[start]
     if word == "#":
         return start + 2 if start + 1 < len(words) and _is_identifier(words[start + 1], False) \
@@ -143,7 +145,13 @@ def floor_number(words: list[str], start: int, vocabulary: AddressVocabulary) ->
     word = words[start]
     ordinal = _ORDINAL.match(word)
     return ordinal[1] if ordinal else vocabulary.ordinal_words.get(word) or (
-        word if word.isdigit() else None)
+        word if word.isdigit() or word in vocabulary.floor_names else None)
+
+
+def _closed(tokens: list[Token], vocabulary: AddressVocabulary) -> bool:
+    """The units so far end in a designator that takes no number (UPPR REAR)."""
+    designator = next((token.standard for token in reversed(tokens) if token.standard), "")
+    return tokens[-1].role == "unit_type" and designator in vocabulary.units_without_range
 
 
 def unit_tokens(words: list[str], vocabulary: AddressVocabulary) -> list[Token]:
@@ -154,14 +162,18 @@ def unit_tokens(words: list[str], vocabulary: AddressVocabulary) -> list[Token]:
         if skip:
             skip = False
             continue
-        if (number := floor_number(words, at, vocabulary)) is not None:
+        if (phrase := vocabulary.unit_phrases.get(tuple(words[at:at + 2]))) is not None:
+            tokens += [Token(word, "unit_type", phrase), Token(words[at + 1], "unit_type", "")]
+            skip = True
+        elif (number := floor_number(words, at, vocabulary)) is not None:
             designator = words[at + 1]
             tokens += [Token(designator, "unit_type", vocabulary.units[designator]),
                        Token(word, "unit", number)]
             skip = True
         elif word == "#" and tokens and tokens[-1].role == "unit_type" and tokens[-1].word != "#":
             tokens.append(Token(word, "unit_type", ""))   # APT # 7 is APT 7
-        elif word == "#" or (word in vocabulary.units and (not tokens or tokens[-1].role == "unit")):
+        elif word == "#" or (word in vocabulary.units and (
+                not tokens or tokens[-1].role == "unit" or _closed(tokens, vocabulary))):
             tokens.append(Token(word, "unit_type", vocabulary.units.get(word, "#")))
         else:
             tokens.append(Token(word, "unit", word))

@@ -207,6 +207,9 @@ def read_one_line(value: str, normal: str, vocabulary: AddressVocabulary
             token.role == "street" and token.word in vocabulary.spanish_street_types
             for token in rules.line.tokens[:2]):
         return rules, tagger   # CALLE 5 BLQ 3: a Puerto Rico form the tagger was not taught
+    if rules.line is not None and any(token.role in UNIT_ROLES and token.word in split.city
+                                      for token in rules.line.tokens):
+        return rules, tagger   # a unit the rules know (LOWER LEVEL) that the tagger puts in the town
     if len(rules.split.state) > 1 and split.state != rules.split.state:
         return rules, None   # a state name of the table, that the tagger takes for a city
     if tagger.line is None and (split.delivery or not (split.city or split.state

@@ -35,6 +35,8 @@ class AddressVocabulary:
     outer_units: frozenset[str]            # a building or mailbox: the unit is another, if any
     units_after_number: frozenset[str]     # abbreviations also written after their number (2ND FL)
     ordinal_words: Mapping[str, str]       # SECOND -> 2
+    floor_names: frozenset[str]            # a floor named, not numbered (GROUND FLOOR)
+    unit_phrases: Mapping[tuple[str, ...], str]   # two words for one designator (LOWER LEVEL)
     directionals: Mapping[str, str]        # word or abbreviation -> abbreviation
     states: Mapping[tuple[str, ...], str]  # name words, code or variant -> code
     state_lengths: Mapping[str, tuple[int, ...]]     # last word -> its phrases' lengths
@@ -68,10 +70,11 @@ _AddressRulesSchema = Schema.from_dict({
         "suffixes_table", "units_table", "states_table", "directionals_table", "countries_table")},
     **string_lists("usps_countries", "us_names", "boundary_suffixes", "units_after_number",
                    "recipient_openers", "outer_units", "city_openers",
-                   "spanish_street_types"),
+                   "spanish_street_types", "floor_names"),
     **{name: fields.Dict(keys=fields.String(), values=fields.String(), required=True)
        for name in ("country_variants", "state_variants", "unit_variants", "number_words",
-                                    "route_types", "ordinal_words", "urbanization_types")},
+                                    "route_types", "ordinal_words", "urbanization_types",
+                                    "unit_phrases")},
     "zip_first_digits": fields.Dict(keys=fields.String(validate=validate.Regexp(r"^\d$")),
                                     values=fields.List(fields.String()), required=True),
     "foreign_postal_codes": fields.List(fields.Nested(Schema.from_dict({
@@ -215,6 +218,9 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> AddressVocabula
         recipient_hints=frozenset(max(opener.lower().split(), key=len)[:3]
                                   for opener in loaded["recipient_openers"]),
         ordinal_words=MappingProxyType(dict(loaded["ordinal_words"])),
+        floor_names=frozenset(loaded["floor_names"]),
+        unit_phrases=MappingProxyType({_words(phrase): designator for phrase, designator
+                                       in loaded["unit_phrases"].items()}),
         units_after_number=frozenset(loaded["units_after_number"]),
         outer_units=frozenset(loaded["outer_units"]),
         city_openers=frozenset(loaded["city_openers"]),

@@ -2,14 +2,15 @@
 
 A one-line address goes through named stages, each recorded on the trail:
 the text step; upper case, accents folded and punctuation removed on the
-whole line; the last line split off by rule from the right (ZIP, state, then
-the city after the last comma); the delivery line read by its form (PO box,
-rural route, highway contract, military, general delivery, street) into
-components; and each component written in its standard form. Without
-commas, usaddress's tagger finds where the street ends and the city begins,
-with our correction for towns that begin with a direction word. Parts sent
-apart go through the same stages. The vocabulary is rules/addresses.toml and
-the Pub 28 tables beside it; nothing here knows a particular place.
+whole line; a line ending in another country's postal code kept as sent;
+then two readings (reconcile.py): the rules' (lastline.py splits the last
+line off from the right, delivery.py reads the delivery line by its form)
+and, where the rules are not sure, usaddress's tagger (tagged.py, crf.py),
+the likelier kept and a difference flagged; the parts split off, units moved
+to line2, and each component written in its standard form (standard.py,
+assemble.py). Parts sent apart go through the same stages without the
+tagger. The vocabulary is rules/addresses.toml and the Pub 28 tables beside
+it (vocabulary.py); nothing here knows a particular place.
 """
 
 from __future__ import annotations

@@ -2,11 +2,12 @@
 
 The rule reading splits the last line off from the right and reads the
 delivery line by its forms; the tagger's reading (tagged.py) labels every
-token. Where the rule reading is certain (commas between the delivery line,
-the city and the state with its ZIP, each part read whole), the tagger is not
-asked. Otherwise both are read; when they agree nothing is flagged, and when
-they differ the likelier is kept, flagged for review, and the other listed
-among the alternatives.
+token. Before either reads, what is not the postal address is set apart (a
+care-of or attention line, a note, a repeat) and a Puerto Rico urbanization
+taken out. Where the rule reading is certain (see _certain), the tagger is
+not asked. Otherwise both are read; when they agree nothing is flagged, and
+when they differ the likelier is kept (see _weigh), flagged for review, and
+the other listed among the alternatives.
 """
 
 from __future__ import annotations
@@ -173,7 +174,8 @@ def _named_after_its_type(reading: Reading, vocabulary: AddressVocabulary) -> Re
 
 
 # Feeds repeat whole address lines (a household, a facility): each distinct
-# line is read once per process. The readings are shared, so never changed.
+# line is read once per process. The readings are shared: nothing changes them
+# after this but the memo of their compared parts.
 @functools.lru_cache(maxsize=8192)
 def read_one_line(value: str, normal: str, vocabulary: AddressVocabulary
                   ) -> tuple[Reading, Reading | None]:
@@ -195,8 +197,17 @@ def read_one_line(value: str, normal: str, vocabulary: AddressVocabulary
     split, tagged_other, line = tagged
     if _military_context(split, vocabulary) and line is None:
         line = read_delivery_line(split.delivery, vocabulary, True)
-    tagger = Reading(split, line, other + tagged_other, place)
-    if rules.parts(vocabulary) == tagger.parts(vocabulary) and not tagged_other:
+    return _weigh(rules, Reading(split, line, other + tagged_other, place), bool(tagged_other),
+                  vocabulary)
+
+
+def _weigh(rules: Reading, tagger: Reading, tagger_set_apart: bool,
+           vocabulary: AddressVocabulary) -> tuple[Reading, Reading | None]:
+    """Which of two readings is kept, and the other when a person should see
+    both. On real text the tagger's is right more often; the rules keep
+    the forms the tagger was not taught and the words their tables know."""
+    split = tagger.split
+    if rules.parts(vocabulary) == tagger.parts(vocabulary) and not tagger_set_apart:
         return rules, None
     if (split.delivery, split.city) in rules.split.alternatives:
         return tagger, rules   # the tagger takes the reading the rules thought second likeliest

@@ -40,7 +40,7 @@ FAMILY_FIRST = "family_first"
 
 # A nickname is set apart by double quotes, curly quotes, brackets, or single
 # quotes that stand free (so the apostrophe of O'Brien is not one).
-_TOKEN = re.compile(r"""(?P<quoted>"[^"]*"|“[^”]*”|\([^)]*\)|\[[^\]]*\]"""
+_TOKEN = re.compile(r"""(?P<quoted>"[^"]*"|''[^']+''|“[^”]*”|\([^)]*\)|\[[^\]]*\]"""
                     r"""|(?<![^\s,])['‘][^'’]+['’](?![^\s,]))|(?P<comma>,)|(?P<word>[^\s,]+)""")
 _QUOTES = "\"“”()[]'‘’"
 _NOT_LETTER = re.compile(r"[^A-Z]")
@@ -72,6 +72,9 @@ class NameVocabulary:
     max_length: int
     max_words: int
     titles: Mapping[str, str]
+    title_qualifiers: frozenset[str]       # STATE of STATE SENATOR
+    iberian_surnames: frozenset[str]       # two of them make a two-part family name
+    credential_phrases: tuple[tuple[str, ...], ...]   # ATTORNEY AT LAW, folded words
     suffixes: Mapping[str, str]
     credentials: Mapping[str, str]
     comma_only_credentials: frozenset[str]
@@ -85,6 +88,8 @@ class NameVocabulary:
     surnames_not_given: frozenset[str]
     surnames: frozenset[str]
     given_names: frozenset[str]
+    given_births: Mapping[str, int]        # SSA births by given name, the common ones only
+    common_given_births: int               # from this many births a word reads as a given name
     variants: Mapping[str, tuple[str, ...]]
     mac_names: Mapping[str, str]
     lookalikes: Mapping[str, tuple[str, str]]
@@ -137,11 +142,15 @@ _NameRulesSchema = Schema.from_dict({
     "max_words": fields.Integer(required=True, strict=True, validate=validate.Range(min=4)),
     **{name: fields.Dict(keys=fields.String(validate=_WORD), values=fields.String(), required=True)
        for name in ("titles", "generational_suffixes", "credentials")},
-    **string_lists("credentials_after_comma_only", "particles", "hyphenated_particles",
+    **string_lists("credentials_after_comma_only", "title_qualifiers", "iberian_surnames",
+                   "credential_phrases", "particles", "hyphenated_particles",
                    "surname_joiners", "family_first_surnames", "extra_given_names",
                    "mac_surnames", "no_middle_names"),
     "surnames_table": fields.String(required=True),
     "nicknames_table": fields.String(required=True),
+    "given_names_table": fields.String(required=True),
+    "common_given_births": fields.Integer(required=True, strict=True,
+                                          validate=validate.Range(min=1000)),
     "lookalikes": fields.Dict(keys=fields.String(validate=validate.Regexp(r"^\d$")),
                               values=fields.List(fields.String(validate=validate.Length(equal=1)),
                                                  validate=validate.Length(equal=2)), required=True),
@@ -229,6 +238,10 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> NameVocabulary:
     return NameVocabulary(
         max_length=loaded["max_length"], max_words=loaded["max_words"],
         titles=_folded_map(loaded["titles"]),
+        title_qualifiers=frozenset(map(fold, loaded["title_qualifiers"])),
+        iberian_surnames=frozenset(map(fold, loaded["iberian_surnames"])),
+        credential_phrases=tuple(tuple(map(fold, phrase.split()))
+                                 for phrase in loaded["credential_phrases"]),
         suffixes=_folded_map(loaded["generational_suffixes"]),
         credentials=_folded_map(loaded["credentials"]),
         comma_only_credentials=frozenset(map(fold, loaded["credentials_after_comma_only"])),
@@ -241,6 +254,9 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> NameVocabulary:
         surnames_not_given=frozenset(name for name, given in surnames.items() if not given),
         surnames=frozenset(surnames),
         given_names=frozenset(variants) | frozenset(map(fold, loaded["extra_given_names"])),
+        given_births=MappingProxyType({fold(row["name"]): int(row["births"])
+                                       for row in context.read_csv(loaded["given_names_table"])}),
+        common_given_births=loaded["common_given_births"],
         variants=MappingProxyType(variants),
         mac_names=_folded_map({name: name for name in loaded["mac_surnames"]}),
         lookalikes=MappingProxyType({digit: tuple(forms)
@@ -345,11 +361,17 @@ def _take_tail(words: list[Word], reading: Reading, vocabulary: NameVocabulary,
                keep: int, one_letter_suffix: bool) -> list[Word]:
     """Move trailing suffixes and credentials of `words` out, keeping at least `keep` words."""
     end = len(words)
+    for phrase in vocabulary.credential_phrases:
+        if end - len(phrase) >= keep and tuple(word.key for word in words[-len(phrase):]) == phrase:
+            reading.credentials += words[-len(phrase):]   # ATTORNEY AT LAW
+            end -= len(phrase)
+            break
+    closing = end
     while end > keep and _is_tail_word(words[end - 1], False, vocabulary) \
             and (len(words[end - 1].key) > 1 or one_letter_suffix):
         end -= 1
-    if end < len(words):
-        _sort_tail(words[end:], reading)
+    if end < closing:
+        _sort_tail(words[end:closing], reading)
     return words[:end]
 
 
@@ -358,9 +380,11 @@ def _sort_tail(words: Iterable[Word], reading: Reading) -> None:
         (reading.parts["suffix"] if word.kind == "suffix" else reading.credentials).append(word)
 
 
-def _take_titles(words: list[Word], reading: Reading) -> list[Word]:
+def _take_titles(words: list[Word], reading: Reading, vocabulary: NameVocabulary) -> list[Word]:
     start = 0
-    while start < len(words) - 1 and words[start].kind == "title":
+    while start < len(words) - 1 and (words[start].kind == "title" or (
+            words[start].key in vocabulary.title_qualifiers and start < len(words) - 2
+            and words[start + 1].kind == "title")):
         start += 1
     reading.parts["prefix"] += words[:start]
     return words[start:]
@@ -462,10 +486,21 @@ def _family_first_evidence(words: list[Word], vocabulary: NameVocabulary) -> boo
         _is_given_name(second, vocabulary) or (
             len(words) > 2 and _is_surname_only(second, vocabulary)
             and _is_given_name(words[2], vocabulary)))
+    # A word no one is given before a common given name (HINCAPIE JANICE), or
+    # two names before an initial (BRINES MARK R): lists write the family first.
+    births = vocabulary.given_births
+    common = vocabulary.common_given_births
+    unknown_before_given = len(words) <= 3 and first.kind == second.kind == "word" \
+        and first.key not in births and first.key not in vocabulary.given_names \
+        and births.get(second.key, 0) >= common and second.key not in vocabulary.surnames \
+        and (len(words) == 2 or last.kind == "initial" or births.get(last.key, 0) >= common)
+    names_before_initial = len(words) == 3 and first.kind == second.kind == "word" \
+        and last.kind == "initial" and births.get(first.key, 0) < births.get(second.key, 0)
     newborn_last = _newborn_marker(last) or (
         len(words) > 2 and _newborn_marker(words[-2])
         and last.kind in ("initial", "number"))
-    return bool(upper_first or family_first_surname or surname_before_given) or (
+    return bool(upper_first or family_first_surname or surname_before_given
+                or unknown_before_given or names_before_initial) or (
         newborn_last and not _newborn_marker(first))
 
 
@@ -493,11 +528,21 @@ def _assign(words: list[Word], family_first: bool, vocabulary: NameVocabulary,
         end = _family_end_from_start(words, vocabulary)
         if infer_compound and end == 1 < len(words) - 1 and _is_surname_only(words[1], vocabulary):
             end, compound = 2, True
-        return {"given": words[end:], "middle": [], "family": words[:end]}, compound
+        rest = words[end:]
+        if len(rest) > 1 and words[0].key not in vocabulary.family_first_surnames and (
+                rest[-1].kind == "initial" or rest[0].key in vocabulary.given_births):
+            # MEYER CHARLES LOWELL, BRINES MARK R: a US list's given name, then the middle
+            return {"given": rest[:1], "middle": rest[1:], "family": words[:end]}, compound
+        return {"given": rest, "middle": [], "family": words[:end]}, compound
     start = _family_start_from_end(words, vocabulary)
-    if infer_compound and start == len(words) - 1 >= 2 \
-            and _is_surname_only(words[start - 1], vocabulary):
-        start, compound = start - 1, True
+    if start == len(words) - 1 >= 2 and _is_surname_only(words[start - 1], vocabulary):
+        # GIVEN X FAMILY with X a surname: X is the middle name, as US
+        # registration usually means it, unless both are surnames of Spanish or
+        # Portuguese custom (MARIA LOPEZ GARCIA); the other reading is offered.
+        two_surnames = {words[start - 1].key, words[start].key} <= vocabulary.iberian_surnames
+        if two_surnames == infer_compound:
+            start -= 1
+        compound = True
     given, middle = _given_and_middle(words[:start])
     return {"given": given, "middle": middle, "family": words[start:]}, compound
 
@@ -506,8 +551,13 @@ def _read_natural(words: list[Word], reading: Reading, order: str,
                   vocabulary: NameVocabulary) -> None:
     if not words:
         return
-    words = _take_titles(words, reading)
+    words = _take_titles(words, reading, vocabulary)
     words = _take_tail(words, reading, vocabulary, keep=1, one_letter_suffix=False)
+    # A suffix of more than one letter typed inside the name (DAVID B. III HILL).
+    inside = [word for word in words[1:-1] if word.kind == "suffix" and len(word.key) > 1]
+    if inside:
+        reading.parts["suffix"] += inside
+        words = [word for word in words if word not in inside]
     if len(words) == 1 and reading.parts["prefix"]:
         reading.parts["family"] = words
         return
@@ -520,8 +570,20 @@ def _read_natural(words: list[Word], reading: Reading, order: str,
     if inferred:
         reading.flags.append("names.family_first_inferred")
         reading.alternatives.append(_assign(words, False, vocabulary, infer_compound=False)[0])
+    middle = reading.parts["middle"]
+    if not compound and not (family_first or inferred) and len(middle) == 1 \
+            and middle[0].kind == "word" and len(words) == 3 \
+            and middle[0].key not in vocabulary.given_births \
+            and middle[0].key not in vocabulary.given_names and middle[0].key not in vocabulary.no_middle \
+            and middle[0].placeholder is None:
+        # GIVEN X FAMILY with X no one is given: X may be a first family name.
+        reading.flags.append("names.middle_or_second_family")
+        reading.alternatives.append({"given": reading.parts["given"], "middle": [],
+                                     "family": middle + reading.parts["family"]})
     if compound:
-        reading.flags.append("names.compound_family_inferred")
+        two_part = len(reading.parts["family"]) > 1
+        reading.flags.append("names.compound_family_inferred" if family_first or inferred
+                             or two_part else "names.middle_or_second_family")
         reading.alternatives.append(
             _assign(words, family_first or inferred, vocabulary, infer_compound=False)[0])
 
@@ -529,29 +591,50 @@ def _read_natural(words: list[Word], reading: Reading, order: str,
 def _read_comma_form(family: list[Word], rest: list[Word], reading: Reading,
                      vocabulary: NameVocabulary) -> None:
     family = _take_tail(family, reading, vocabulary, keep=1, one_letter_suffix=False)
-    rest = _take_titles(rest, reading)
+    rest = _take_titles(rest, reading, vocabulary)
     rest = _take_tail(rest, reading, vocabulary, keep=1, one_letter_suffix=False)
     given, middle = _given_and_middle(rest)
     reading.parts.update(given=given, middle=middle, family=family)
 
 
+def _comma_ends_no_family(first: list[Word], rest: list[Word]) -> bool:
+    """A first segment of several words that ends in an initial or a title."""
+    return len(first) > 1 and first[-1].kind in ("initial", "title") and len(rest) == 1
+
+
 def read_name(segments: list[list[Word]], order: str, vocabulary: NameVocabulary) -> Reading:
     """Assign every word of a free-text name to a part."""
     reading = Reading()
-    reading.nickname = [word for segment in segments for word in segment if word.kind == "nickname"]
-    if reading.nickname:
+    quoted = [word for segment in segments for word in segment if word.kind == "nickname"]
+    # A suffix in parentheses or quotes (W. ROWAN (JR.) FENN) is the suffix.
+    reading.nickname = [word for word in quoted if word.key not in vocabulary.suffixes]
+    reading.parts["suffix"] += [word for word in quoted if word.key in vocabulary.suffixes]
+    if quoted:
         segments = [[word for word in segment if word.kind != "nickname"] for segment in segments]
-    else:
-        segments = list(segments)  # the caller's list stays whole
+    # Empty segments after the first are stray commas (a trailing one, a doubled one), and
+    # a later segment of suffixes and credentials only (FENN, BSN, RN, CHRISTINE) is the tail.
     tail: list[Word] = []
-    while len(segments) > 1 and segments[-1] and all(
-            _is_tail_word(word, True, vocabulary) for word in segments[-1]):
-        tail = segments.pop() + tail
-    if len(segments) == 1 or not segments[0]:
+    kept = [list(segments[0])]
+    for segment in segments[1:]:
+        if segment and all(_is_tail_word(word, True, vocabulary) for word in segment):
+            tail += segment
+        elif segment:
+            kept.append(segment)
+    if len(kept) == 1 and len(segments) > 1 and len(kept[0]) == 1:
+        kept.append([])   # HOLLOWAY, : a family name closed by its comma
+    segments = kept
+    rest = [word for segment in segments[1:] for word in segment]
+    if len(segments) > 1 and segments[0] and _comma_ends_no_family(segments[0], rest):
+        # CAROLYN E, SAVAGE and PATRICIA MRS, NATKE: the comma does not close a family name.
+        reading.flags.append("names.comma_not_after_family")
+        segments = [segments[0] + rest]
+    if len(segments) > 1 and segments[0] and len(rest) == 1 and rest[0].kind == "initial":
+        _read_natural(segments[0], reading, order, vocabulary)   # JOSEPH AROJOJOYE, B
+        reading.parts["middle"] += rest
+    elif len(segments) == 1 or not segments[0] or (not rest and len(segments[0]) > 1):
         _read_natural([word for segment in segments for word in segment], reading, order,
                       vocabulary)
     else:
-        rest = [word for segment in segments[1:] for word in segment]
         _read_comma_form(segments[0], rest, reading, vocabulary)
     _sort_tail(tail, reading)
     for word in reading.parts["family"]:

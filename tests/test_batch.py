@@ -314,7 +314,8 @@ def test_any_batch_gets_a_documented_answer(api, records, lines):
     response = api.call("POST", "/v1/clean/batch", data=body, content_type="application/x-ndjson",
                         documented=bool(lines))
     assert response.status_code == 200
-    assert len(response.get_data(as_text=True).splitlines()) == len(lines)
+    # NDJSON lines end at "\n" only: a value may hold U+0085 or U+2028, which splitlines() cuts at.
+    assert response.get_data(as_text=True).count("\n") == len(lines)
 
 
 def _json_module_reading(document):

@@ -74,7 +74,9 @@ class NameVocabulary:
     titles: Mapping[str, str]
     title_qualifiers: frozenset[str]       # STATE of STATE SENATOR
     iberian_surnames: frozenset[str]       # two of them make a two-part family name
-    credential_phrases: tuple[tuple[str, ...], ...]   # ATTORNEY AT LAW, folded words
+    alias_markers: frozenset[str]          # AKA: what follows is another name
+    credential_phrases: tuple[tuple[str, ...], ...]   # ATTORNEY AT LAW, its words folded
+    glued_prefixes: frozenset[str]         # MC, MAC, O typed apart from the name they begin
     suffixes: Mapping[str, str]
     credentials: Mapping[str, str]
     comma_only_credentials: frozenset[str]
@@ -143,11 +145,12 @@ _NameRulesSchema = Schema.from_dict({
     **{name: fields.Dict(keys=fields.String(validate=_WORD), values=fields.String(), required=True)
        for name in ("titles", "generational_suffixes", "credentials")},
     **string_lists("credentials_after_comma_only", "title_qualifiers", "iberian_surnames",
-                   "credential_phrases", "particles", "hyphenated_particles",
+                   "alias_markers", "glued_prefixes", "particles", "hyphenated_particles",
                    "surname_joiners", "family_first_surnames", "extra_given_names",
                    "mac_surnames", "no_middle_names"),
     "surnames_table": fields.String(required=True),
     "nicknames_table": fields.String(required=True),
+    "credential_phrases": fields.Dict(keys=fields.String(), values=fields.String(), required=True),
     "given_names_table": fields.String(required=True),
     "common_given_births": fields.Integer(required=True, strict=True,
                                           validate=validate.Range(min=1000)),
@@ -240,10 +243,12 @@ def compile_rules(data: dict[str, Any], context: LoadContext) -> NameVocabulary:
         titles=_folded_map(loaded["titles"]),
         title_qualifiers=frozenset(map(fold, loaded["title_qualifiers"])),
         iberian_surnames=frozenset(map(fold, loaded["iberian_surnames"])),
-        credential_phrases=tuple(tuple(map(fold, phrase.split()))
-                                 for phrase in loaded["credential_phrases"]),
+        glued_prefixes=frozenset(map(fold, loaded["glued_prefixes"])),
+        alias_markers=frozenset(fold(marker).replace(" ", "") for marker in loaded["alias_markers"]),
         suffixes=_folded_map(loaded["generational_suffixes"]),
-        credentials=_folded_map(loaded["credentials"]),
+        credentials=_folded_map({**loaded["credentials"], **loaded["credential_phrases"]}),
+        credential_phrases=tuple(tuple(fold(word) for word in phrase.split())
+                                 for phrase in loaded["credential_phrases"]),
         comma_only_credentials=frozenset(map(fold, loaded["credentials_after_comma_only"])),
         particles=MappingProxyType(particles), longest_particle=max(map(len, particles)),
         particle_starts=frozenset(words[0] for words in particles if words),
@@ -363,15 +368,17 @@ def _take_tail(words: list[Word], reading: Reading, vocabulary: NameVocabulary,
     end = len(words)
     for phrase in vocabulary.credential_phrases:
         if end - len(phrase) >= keep and tuple(word.key for word in words[-len(phrase):]) == phrase:
-            reading.credentials += words[-len(phrase):]   # ATTORNEY AT LAW
-            end -= len(phrase)
+            typed = " ".join(word.raw for word in words[-len(phrase):])   # ATTORNEY AT LAW
+            reading.credentials.append(Word(typed, fold(typed), "credential",
+                                            words[-1].restore_case, None))
+            words = words[:-len(phrase)]
+            end = len(words)
             break
-    closing = end
     while end > keep and _is_tail_word(words[end - 1], False, vocabulary) \
             and (len(words[end - 1].key) > 1 or one_letter_suffix):
         end -= 1
-    if end < closing:
-        _sort_tail(words[end:closing], reading)
+    if end < len(words):
+        _sort_tail(words[end:], reading)
     return words[:end]
 
 
@@ -542,6 +549,8 @@ def _assign(words: list[Word], family_first: bool, vocabulary: NameVocabulary,
         two_surnames = {words[start - 1].key, words[start].key} <= vocabulary.iberian_surnames
         if two_surnames == infer_compound:
             start -= 1
+            # DE LA CRUZ RODRIGUEZ: the particles of the first family name go with it.
+            start = _particle_before(words, start, vocabulary, lowest=1) or start
         compound = True
     given, middle = _given_and_middle(words[:start])
     return {"given": given, "middle": middle, "family": words[start:]}, compound
@@ -571,15 +580,14 @@ def _read_natural(words: list[Word], reading: Reading, order: str,
         reading.flags.append("names.family_first_inferred")
         reading.alternatives.append(_assign(words, False, vocabulary, infer_compound=False)[0])
     middle = reading.parts["middle"]
-    if not compound and not (family_first or inferred) and len(middle) == 1 \
-            and middle[0].kind == "word" and len(words) == 3 \
-            and middle[0].key not in vocabulary.given_births \
-            and middle[0].key not in vocabulary.given_names and middle[0].key not in vocabulary.no_middle \
-            and middle[0].placeholder is None:
-        # GIVEN X FAMILY with X no one is given: X may be a first family name.
+    if not compound and not (family_first or inferred) and middle and middle[-1].kind == "word" \
+            and middle[-1].key not in vocabulary.given_births \
+            and middle[-1].key not in vocabulary.given_names \
+            and middle[-1].key not in vocabulary.no_middle and middle[-1].placeholder is None:
+        # GIVEN [M] X FAMILY with X no one is given: X may be a first family name.
         reading.flags.append("names.middle_or_second_family")
-        reading.alternatives.append({"given": reading.parts["given"], "middle": [],
-                                     "family": middle + reading.parts["family"]})
+        reading.alternatives.append({"given": reading.parts["given"], "middle": middle[:-1],
+                                     "family": middle[-1:] + reading.parts["family"]})
     if compound:
         two_part = len(reading.parts["family"]) > 1
         reading.flags.append("names.compound_family_inferred" if family_first or inferred
@@ -602,12 +610,28 @@ def _comma_ends_no_family(first: list[Word], rest: list[Word]) -> bool:
     return len(first) > 1 and first[-1].kind in ("initial", "title") and len(rest) == 1
 
 
+def _without_alias(segments: list[list[Word]], vocabulary: NameVocabulary
+                   ) -> tuple[list[list[Word]], list[Word]]:
+    """The segments up to an alias marker (AKA, A.K.A., ALIAS), and the words after it."""
+    for at, segment in enumerate(segments):
+        for index, word in enumerate(segment):
+            if word.key.rstrip(":") in vocabulary.alias_markers:
+                after = segment[index + 1:] + [word for later in segments[at + 1:] for word in later]
+                return [*segments[:at], segment[:index]], after
+    return segments, []
+
+
 def read_name(segments: list[list[Word]], order: str, vocabulary: NameVocabulary) -> Reading:
     """Assign every word of a free-text name to a part."""
     reading = Reading()
+    segments, alias = _without_alias(segments, vocabulary)
     quoted = [word for segment in segments for word in segment if word.kind == "nickname"]
     # A suffix in parentheses or quotes (W. ROWAN (JR.) FENN) is the suffix.
-    reading.nickname = [word for word in quoted if word.key not in vocabulary.suffixes]
+    # An alias is a second name of its own: HL7 v2 name type A, and in FHIR a
+    # HumanName of use nickname, which FHIR maps to v3 P (Other/Pseudonym/Alias).
+    reading.nickname = [word for word in quoted if word.key not in vocabulary.suffixes] + alias
+    if alias:
+        reading.flags.append("names.alias_found")
     reading.parts["suffix"] += [word for word in quoted if word.key in vocabulary.suffixes]
     if quoted:
         segments = [[word for word in segment if word.kind != "nickname"] for segment in segments]
@@ -849,19 +873,29 @@ _NO_KEYS: Mapping[str, Any] = MappingProxyType({})
 
 # A family name's words as its keys read them: the written form, whether the
 # word is part of the core (not a particle or joiner), whether a particle is
-# joined to it by a hyphen.
-FamilyKeyInputs = tuple[tuple[str, bool, bool], ...]
+# joined to it by a hyphen, whether it is a prefix typed apart from the word
+# it begins (MC DONALD).
+FamilyKeyInputs = tuple[tuple[str, bool, bool, bool], ...]   # written, in the core, hyphenated, glued
 
 
 # The keys of a given name and of a family name are worked out once per
 # distinct part, read-only: each outcome copies them into its own dict.
 @functools.lru_cache(maxsize=32768)
 def _family_keys(family: FamilyKeyInputs) -> Mapping[str, Any]:
-    folded_family = folded_key(" ".join(written for written, _, _ in family))
+    folded_family = folded_key(" ".join(written for written, *_ in family))
     if not folded_family:
         return _NO_KEYS
-    core = [folded_key(piece) for written, in_core, hyphenated in family if in_core
-            for piece in written.split("-")[1 if hyphenated else 0:]]
+    core: list[str] = []
+    glue = ""
+    for written, in_core, hyphenated, glued in family:
+        if glued:
+            glue += folded_key(written)   # MC DONALD and O BRIEN key as MCDONALD and OBRIEN
+            continue
+        pieces = [folded_key(piece) for piece in written.split("-")[1 if hyphenated else 0:]]
+        if in_core or glue:
+            pieces[0] = glue + pieces[0]
+            core += pieces
+        glue = ""
     core = [piece for piece in core if piece] or [folded_family]
     return MappingProxyType({**_phonetic_keys("family", folded_family),
                              "family_core": "".join(core), "family_parts": tuple(core)})
@@ -882,7 +916,9 @@ def match_keys(given: str | None, family: list[tuple[Word, str]],
     with their written forms), and each part of the family name without particles."""
     keys = {**_family_keys(tuple([(written, word.particle is None
                                    and word.key not in vocabulary.joiners,
-                                   bool(word.hyphen_particle)) for word, written in family])),
+                                   bool(word.hyphen_particle),
+                                   word.key in vocabulary.glued_prefixes and at + 1 < len(family))
+                                  for at, (word, written) in enumerate(family)])),
             **_given_keys(given or "")}
     if "family_parts" in keys:
         keys["family_parts"] = list(keys["family_parts"])  # a list of each outcome's own

@@ -23,6 +23,10 @@ REVIEWED = {
     ("james jennifer kastenholz steans", "given"): "two people in one string, without an And",
     ("james jennifer kastenholz steans", "middle"): "two people in one string, without an And",
     ("james jennifer kastenholz steans", "family"): "two people in one string, without an And",
+    ("Miss CHRISTINA MERCY KEMP", "middle"): "Mercy is a given name (SSA counts): a middle name",
+    ("Miss CHRISTINA MERCY KEMP", "family"): "Mercy is a given name (SSA counts): a middle name",
+    ("Miss JENNIFER WISDOM BEHOUNEK", "middle"): "Wisdom is a given name (SSA counts): a middle name",
+    ("Miss JENNIFER WISDOM BEHOUNEK", "family"): "Wisdom is a given name (SSA counts): a middle name",
 }
 
 
@@ -43,7 +47,17 @@ def test_the_file_is_the_published_sample_and_the_reviewed_list_is_short():
     assert {text for text, _ in REVIEWED} <= {item.text for item in strings}
 
 
+def test_at_least_98_percent_of_all_parts_are_right(scores):
+    ours, _ = scores
+    assert ours.share() >= 0.98
+
+
 @pytest.mark.parametrize("part", PARTS)
-def test_no_part_is_read_worse_than_the_bare_parser(scores, part):
+def test_each_part_is_right_95_percent_and_no_less_than_the_bare_parser(scores, part):
     ours, bare = scores
-    assert ours.share(part) >= bare.share(part)
+    assert ours.share(part) >= max(0.95, bare.share(part))
+
+
+def test_at_most_one_percent_of_parts_are_wrong_without_a_review_flag(scores):
+    ours, _ = scores
+    assert ours.silent_share() <= 0.01

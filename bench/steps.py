@@ -16,7 +16,9 @@ sys.path.insert(0, str(Path(__file__).parent))
 sys.path.insert(0, str(Path(__file__).parent.parent / "tests"))
 import corpus  # noqa: E402
 import labelled  # noqa: E402  (the scorer of tests/test_addresses_opendata.py)
+import labelled_names  # noqa: E402  (the scorer of tests/test_names_opendata.py)
 from test_addresses_opendata import REVIEWED  # noqa: E402
+from test_names_opendata import REVIEWED as REVIEWED_NAMES  # noqa: E402
 
 import cleaner  # noqa: E402
 from cleaner.addresses import clean_address  # noqa: E402
@@ -91,7 +93,23 @@ def main() -> dict:
           f"cleaner {ours:.1%} (or as the flagged alternative: {either:.1%})")
     figures["city_without_commas"] = {"usaddress": bare, "cleaner": ours, "cleaner_or_alternative": either}
     figures["real_addresses"] = real_address_accuracy(rules)
+    figures["real_names"] = real_name_accuracy()
     return figures
+
+
+def real_name_accuracy() -> dict:
+    """Parts right on the probablepeople library's hand-labelled person names
+    (MIT), the engine beside the bare nameparser call; tests/labelled_names.py scores."""
+    strings, couples, single = labelled_names.labelled_names()
+    ours = labelled_names.score(strings, labelled_names.engine_reader(cleaner.clean),
+                                REVIEWED_NAMES)
+    bare = labelled_names.score(strings, labelled_names.nameparser_reader, REVIEWED_NAMES)
+    print(f"real names: {len(strings)} hand-labelled names of the probablepeople library's "
+          f"training file (MIT), {couples} couples and {single} one-word names left out")
+    print(labelled_names.table(ours, bare))
+    return {part or "all": {"cleaner": ours.share(part), "nameparser": bare.share(part),
+                            "cleaner_silent": ours.silent_share(part)}
+            for part in (*labelled_names.PARTS, None)}
 
 
 def real_address_accuracy(rules) -> dict:

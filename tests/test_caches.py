@@ -20,9 +20,9 @@ sys.path.insert(0, str(Path(__file__).parent.parent / "bench"))
 import corpus  # noqa: E402  (the benchmark's invented intake records)
 
 # A field kind grown into a package of stage modules keeps its caches in them.
-ADDRESS_STAGES = [importlib.import_module(f"cleaner.addresses.{found.name}")
-                  for found in pkgutil.iter_modules(addresses.__path__)]
-VALUE_CACHES = [member for module in (names, addresses, *ADDRESS_STAGES, phones, dates)
+STAGES = [importlib.import_module(f"{package.__name__}.{found.name}")
+          for package in (names, addresses) for found in pkgutil.iter_modules(package.__path__)]
+VALUE_CACHES = [member for module in (names, addresses, *STAGES, phones, dates)
                 for member in vars(module).values() if hasattr(member, "cache_clear")]
 OPTIONS = cleaner.Options(reference_date=dt.date(2026, 12, 2))
 

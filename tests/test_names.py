@@ -11,7 +11,8 @@ from hypothesis import strategies as st
 from nameparser import HumanName
 
 import cleaner
-from cleaner import engine, names
+from cleaner import engine
+from cleaner.names import keys, stages, tokens, vocabulary
 from cleaner.rules import RulesError
 from conftest import REFERENCE_DATE, assert_formed_text_is_tidy, edit_rules, field_codes, fuzz_examples
 
@@ -304,8 +305,8 @@ def test_temporary_names_have_the_fhir_use_temp(clean, value, use):
 
 # The word caches only remember: a value cleaned with them warm gives exactly
 # what it gives with them cleared.
-WORD_CACHES = (names._word_stages, names._part_stages, names._classified, names.folded_key,
-               names._phonetic_keys, names._family_keys, names._given_keys, names.fold)
+WORD_CACHES = (stages._word_stages, stages._part_stages, tokens._classified, keys.folded_key,
+               keys._phonetic_keys, keys._family_keys, keys._given_keys, vocabulary.fold)
 
 
 @settings(max_examples=200, deadline=None)

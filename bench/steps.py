@@ -107,9 +107,7 @@ def real_name_accuracy() -> dict:
     print(f"real names: {len(strings)} hand-labelled names of the probablepeople library's "
           f"training file (MIT), {couples} couples and {single} one-word names left out")
     print(labelled_names.table(ours, bare))
-    return {part or "all": {"cleaner": ours.share(part), "nameparser": bare.share(part),
-                            "cleaner_silent": ours.silent_share(part)}
-            for part in (*labelled_names.PARTS, None)}
+    return ours.figures(bare, "nameparser")
 
 
 def real_address_accuracy(rules) -> dict:
@@ -123,9 +121,7 @@ def real_address_accuracy(rules) -> dict:
     print(f"real addresses: {len(strings)} hand-labelled strings of the usaddress library's "
           f"training file (MIT), {left_out} corners and landmarks left out")
     print(labelled.table(ours, bare))
-    return {part or "all": {"cleaner": ours.share(part), "usaddress_tag": bare.share(part),
-                            "cleaner_silent": ours.silent_share(part)}
-            for part in (*labelled.COMPONENTS, None)}
+    return ours.figures(bare, "usaddress_tag")
 
 
 if __name__ == "__main__":

@@ -17,9 +17,10 @@ from __future__ import annotations
 import re
 import xml.etree.ElementTree as ElementTree
 from collections.abc import Callable, Container, Iterable, Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 
+import scoring
 import usaddress
 
 from cleaner.addresses import AddressVocabulary, normalise
@@ -29,7 +30,6 @@ COMPONENTS = ("number", "city", "state", "zip5", "unit")
 # Strings outside the job of a patient's address: street corners and places known by name alone.
 OUT_OF_SCOPE_TAGS = frozenset(("IntersectionSeparator", "CornerOf", "LandmarkName"))
 _ORDINAL = re.compile(r"^(\d+)(?:ST|ND|RD|TH)$")
-_FLAGGED = frozenset(("review", "invalid"))
 
 
 @dataclass(frozen=True)
@@ -147,53 +147,19 @@ def bare_tagger_reading(text: str) -> list[tuple[str, str]]:
     return list((words, label) for label, words in tagged.items())
 
 
-@dataclass
-class Score:
-    right: dict[str, int] = field(default_factory=lambda: dict.fromkeys(COMPONENTS, 0))
-    scored: dict[str, int] = field(default_factory=lambda: dict.fromkeys(COMPONENTS, 0))
-    silent: dict[str, int] = field(default_factory=lambda: dict.fromkeys(COMPONENTS, 0))
-    misses: list[tuple[str, str, str, str, bool]] = field(default_factory=list)  # text, part, want, got, flagged
-
-    def add(self, text: str, want: Mapping[str, str], got: Mapping[str, str], flagged: bool,
-            reviewed: Container[tuple[str, str]] = ()) -> None:
-        for part in COMPONENTS:
-            if (not want[part] and not got[part]) or (text, part) in reviewed:
-                continue
-            self.scored[part] += 1
-            if want[part] == got[part]:
-                self.right[part] += 1
-            else:
-                self.silent[part] += not flagged
-                self.misses.append((text, part, want[part], got[part], flagged))
-
-    def share(self, part: str | None = None) -> float:
-        parts = COMPONENTS if part is None else (part,)
-        return sum(self.right[p] for p in parts) / max(1, sum(self.scored[p] for p in parts))
-
-    def silent_share(self, part: str | None = None) -> float:
-        parts = COMPONENTS if part is None else (part,)
-        return sum(self.silent[p] for p in parts) / max(1, sum(self.scored[p] for p in parts))
-
-
 def score(strings: Iterable[Labelled], standardiser: Standardiser,
           read: Callable[[str], tuple[dict[str, str], bool]],
-          reviewed: Container[tuple[str, str]] = ()) -> Score:
-    """`read` gives a string's standardised components and whether it was
-    flagged; a (string, component) in `reviewed` is a label judged wrong."""
-    result = Score()
-    for item in strings:
-        got, flagged = read(item.text)
-        result.add(item.text, standardiser.from_labels(item.tokens), got, flagged, reviewed)
-    return result
+          reviewed: Container[tuple[str, str]] = ()) -> scoring.Score:
+    return scoring.score(strings, COMPONENTS, lambda item: standardiser.from_labels(item.tokens),
+                         read, reviewed)
 
 
 def engine_reader(clean: Callable[[dict], dict], standardiser: Standardiser
                   ) -> Callable[[str], tuple[dict[str, str], bool]]:
     def read(text: str) -> tuple[dict[str, str], bool]:
         body = clean({"address": text})
-        flagged = any(flag["code"].startswith("addresses.") and flag.get("severity") in _FLAGGED
-                      for flag in body["flags"])
-        return standardiser.from_engine(body["record"].get("address")), flagged
+        return standardiser.from_engine(body["record"].get("address")), scoring.flagged(
+            body, "addresses")
     return read
 
 
@@ -203,9 +169,5 @@ def tagger_reader(standardiser: Standardiser) -> Callable[[str], tuple[dict[str,
     return read
 
 
-def table(ours: Score, bare: Score) -> str:
-    lines = [f"{'component':12} {'cleaner':>8} {'bare tagger':>12} {'cleaner silent':>15}"]
-    for part in (*COMPONENTS, None):
-        lines.append(f"{part or 'all':12} {ours.share(part):8.1%} {bare.share(part):12.1%} "
-                     f"{ours.silent_share(part):15.1%}")
-    return "\n".join(lines)
+def table(ours: scoring.Score, bare: scoring.Score) -> str:
+    return scoring.table(ours, bare, "component", "bare tagger")

@@ -17,9 +17,10 @@ from __future__ import annotations
 import re
 import xml.etree.ElementTree as ElementTree
 from collections.abc import Callable, Container, Iterable, Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 
+import scoring
 from nameparser import HumanName
 from unidecode import unidecode
 
@@ -29,7 +30,6 @@ _LABEL_PART = {"GivenName": "given", "FirstInitial": "given", "Surname": "family
                "LastInitial": "family", "MiddleName": "middle", "MiddleInitial": "middle",
                "SuffixGenerational": "suffix", "Nickname": "nickname"}
 _NOT_LETTER = re.compile(r"[^A-Z0-9 ]")
-_FLAGGED = frozenset(("review", "invalid"))
 
 
 @dataclass(frozen=True)
@@ -78,49 +78,15 @@ def from_nameparser(text: str) -> dict[str, str]:
             "nickname": folded(parsed.nickname)}
 
 
-@dataclass
-class Score:
-    right: dict[str, int] = field(default_factory=lambda: dict.fromkeys(PARTS, 0))
-    scored: dict[str, int] = field(default_factory=lambda: dict.fromkeys(PARTS, 0))
-    silent: dict[str, int] = field(default_factory=lambda: dict.fromkeys(PARTS, 0))
-    misses: list[tuple[str, str, str, str, bool]] = field(default_factory=list)
-
-    def add(self, text: str, want: Mapping[str, str], got: Mapping[str, str], flagged: bool,
-            reviewed: Container[tuple[str, str]] = ()) -> None:
-        for part in PARTS:
-            if (not want[part] and not got[part]) or (text, part) in reviewed:
-                continue
-            self.scored[part] += 1
-            if want[part] == got[part]:
-                self.right[part] += 1
-            else:
-                self.silent[part] += not flagged
-                self.misses.append((text, part, want[part], got[part], flagged))
-
-    def share(self, part: str | None = None) -> float:
-        parts = PARTS if part is None else (part,)
-        return sum(self.right[p] for p in parts) / max(1, sum(self.scored[p] for p in parts))
-
-    def silent_share(self, part: str | None = None) -> float:
-        parts = PARTS if part is None else (part,)
-        return sum(self.silent[p] for p in parts) / max(1, sum(self.scored[p] for p in parts))
-
-
 def score(strings: Iterable[Labelled], read: Callable[[str], tuple[dict[str, str], bool]],
-          reviewed: Container[tuple[str, str]] = ()) -> Score:
-    result = Score()
-    for item in strings:
-        got, flagged = read(item.text)
-        result.add(item.text, from_labels(item.tokens), got, flagged, reviewed)
-    return result
+          reviewed: Container[tuple[str, str]] = ()) -> scoring.Score:
+    return scoring.score(strings, PARTS, lambda item: from_labels(item.tokens), read, reviewed)
 
 
 def engine_reader(clean: Callable[[dict], dict]) -> Callable[[str], tuple[dict[str, str], bool]]:
     def read(text: str) -> tuple[dict[str, str], bool]:
         body = clean({"name": text})
-        flagged = any(flag["code"].startswith("names.") and flag.get("severity") in _FLAGGED
-                      for flag in body["flags"])
-        return from_engine(body["record"].get("name")), flagged
+        return from_engine(body["record"].get("name")), scoring.flagged(body, "names")
     return read
 
 
@@ -128,9 +94,5 @@ def nameparser_reader(text: str) -> tuple[dict[str, str], bool]:
     return from_nameparser(text), False
 
 
-def table(ours: Score, bare: Score) -> str:
-    lines = [f"{'part':10} {'cleaner':>8} {'bare nameparser':>16} {'cleaner silent':>15}"]
-    for part in (*PARTS, None):
-        lines.append(f"{part or 'all':10} {ours.share(part):8.1%} {bare.share(part):16.1%} "
-                     f"{ours.silent_share(part):15.1%}")
-    return "\n".join(lines)
+def table(ours: scoring.Score, bare: scoring.Score) -> str:
+    return scoring.table(ours, bare, "part", "bare nameparser")
